@@ -1,0 +1,32 @@
+package fit
+
+import "math"
+
+// CosineDrift returns the discrete cosine drift terms for a run of n volumes
+// at repetition time tr seconds, for periods longer than highpass seconds:
+//
+//	d_k(t) = sqrt(2/n) cos(π k (2t + 1) / (2n)),  t = 0..n-1,  k = 1..K,
+//
+// the orthonormal DCT-II basis without its constant term (the intercept
+// carries that). Term k has period 2 n tr / k, so K = floor(2 n tr / highpass)
+// (capped at n-1). highpass <= 0 gives no terms. The 128 s default of
+// --highpass is common practice for event-related and block designs.
+func CosineDrift(n int, tr, highpass float64) [][]float64 {
+	if highpass <= 0 || n < 2 {
+		return nil
+	}
+	K := int(math.Floor(2 * float64(n) * tr / highpass))
+	if K > n-1 {
+		K = n - 1
+	}
+	cols := make([][]float64, K)
+	s := math.Sqrt(2 / float64(n))
+	for k := 1; k <= K; k++ {
+		c := make([]float64, n)
+		for t := range c {
+			c[t] = s * math.Cos(math.Pi*float64(k)*float64(2*t+1)/float64(2*n))
+		}
+		cols[k-1] = c
+	}
+	return cols
+}

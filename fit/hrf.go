@@ -1,0 +1,43 @@
+package fit
+
+import "math"
+
+// Response model names accepted by --hrf.
+const (
+	HRFDoubleGamma = "double-gamma"
+)
+
+// Shape parameters of the double-gamma response (Friston et al. 1998,
+// NeuroImage 7:30-40; Glover 1999, NeuroImage 9:416-429).
+const (
+	dgPeakShape       = 6.0
+	dgUndershootShape = 16.0
+	dgUndershootRatio = 1.0 / 6.0
+	// responseLength is how long after an event the response is followed,
+	// in seconds; the double-gamma is below 1e-6 of its peak beyond it.
+	responseLength = 32.0
+)
+
+// GammaPDF returns the gamma density with the given shape and unit scale:
+//
+//	f(t) = t^(a-1) e^(-t) / Γ(a),  t > 0,
+//
+// and 0 for t <= 0.
+func GammaPDF(t, shape float64) float64 {
+	if t <= 0 {
+		return 0
+	}
+	lg, _ := math.Lgamma(shape)
+	return math.Exp((shape-1)*math.Log(t) - t - lg)
+}
+
+// DoubleGamma returns the response at t seconds after a brief event:
+//
+//	h(t) = t^(a1-1) e^(-t) / Γ(a1) - c · t^(a2-1) e^(-t) / Γ(a2)
+//
+// with a1 = 6, a2 = 16, c = 1/6 (Friston et al. 1998; Glover 1999). It peaks
+// near 5 s and undershoots near 15 s; its scale is arbitrary because
+// condition regressors are rescaled to peak at 1 (see ConditionRegressor).
+func DoubleGamma(t float64) float64 {
+	return GammaPDF(t, dgPeakShape) - dgUndershootRatio*GammaPDF(t, dgUndershootShape)
+}

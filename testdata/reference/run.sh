@@ -1,0 +1,22 @@
+#!/usr/bin/env bash
+# Regenerates every reference output into OUTDIR (default: this script's folder).
+# Inputs are always read from this script's folder.
+# Needs Debian packages: r-base-core r-cran-nlme r-cran-lmtest python3-scipy
+# python3-statsmodels python3-numpy python3-pandas.
+set -euo pipefail
+here="$(cd "$(dirname "${BASH_SOURCE[0]}")" && pwd)"
+out="${1:-$here}"
+mkdir -p "$out"
+out="$(cd "$out" && pwd)"
+PY="/usr/bin/python3 -E -s -B"  # Debian python, ignoring PYTHON* env and user site
+RS=/usr/bin/Rscript
+cd "$here"
+$PY hrf.py "$out"
+$PY dct.py "$out"
+$PY inputs.py "$out"
+$PY jb.py "$out"
+$PY gls.py "$out"
+"$RS" ols.R "$out"
+"$RS" pt.R "$out"
+"$RS" bh.R "$out"
+echo "reference outputs written to $out"
