@@ -59,9 +59,16 @@ func FitRun(d *Design, names []string, y [][]float64, noise NoiseModel) (*RunFit
 	if err != nil {
 		return nil, err
 	}
-	var bias *ResidualBias
-	if noise.Order > 0 {
-		bias = NewResidualBias(d.X, noise.Order)
+	var estimate func(r []float64) ([]float64, bool)
+	switch {
+	case noise.Order == 1:
+		b := NewAR1Bias(d.X)
+		estimate = func(r []float64) ([]float64, bool) {
+			rho, shrunk := b.Estimate(r)
+			return []float64{rho}, shrunk
+		}
+	case noise.Order > 1:
+		estimate = NewResidualBias(d.X, noise.Order).Estimate
 	}
 	rf := &RunFit{Design: d, Noise: noise, Volumes: n, Regions: make([]RegionFit, len(y))}
 	xw := mat.NewDense(n, k, nil)
@@ -81,8 +88,8 @@ func FitRun(d *Design, names []string, y [][]float64, noise NoiseModel) (*RunFit
 		solver := ols
 		white := &Whitener{G0: 1}
 		copy(yw, yr)
-		for pass := 0; pass < arPasses && bias != nil; pass++ {
-			a, shrunk := bias.Estimate(resid)
+		for pass := 0; pass < arPasses && estimate != nil; pass++ {
+			a, shrunk := estimate(resid)
 			out.AR, out.ARShrunk = a, out.ARShrunk || shrunk
 			white, err = NewWhitener(a)
 			if err != nil {
