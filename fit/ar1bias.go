@@ -1,7 +1,6 @@
 package fit
 
 import (
-
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -157,5 +156,3 @@ func (b *AR1Bias) Estimate(r []float64) (rho float64, shrunk bool) {
 	}
 	return 0.5 * (lo + hi), false
 }
-
-
