@@ -84,7 +84,8 @@ func fineSteps(tr float64) int {
 
 // BuildDesign builds the design of one run: condition regressors, cosine
 // drift terms, motion and confound columns (mean-centred, never rescaled),
-// then the intercept. Conditions appear in order of their first event.
+// then the intercept. Conditions appear sorted by name, so every run of a
+// study has its condition terms in the same order.
 func BuildDesign(s DesignSpec) (*Design, error) {
 	if s.Volumes < 1 {
 		return nil, fmt.Errorf("run has no volumes")
@@ -102,6 +103,7 @@ func BuildDesign(s DesignSpec) (*Design, error) {
 		}
 		byCond[ev.Condition] = append(byCond[ev.Condition], ev)
 	}
+	sort.Strings(d.Conditions)
 	m := fineSteps(s.TR)
 	dt := s.TR / float64(m)
 	kernel := sampledResponse(dt)

@@ -60,7 +60,7 @@ func TestDesignOrder(t *testing.T) {
 		names = append(names, term.Name)
 	}
 	// K = floor(2 · 100 · 2 / 128) = 3 drift terms.
-	want := []string{"b", "a", "drift:1", "drift:2", "drift:3", "motion:tx", "confound:csf", "intercept"}
+	want := []string{"a", "b", "drift:1", "drift:2", "drift:3", "motion:tx", "confound:csf", "intercept"}
 	if len(names) != len(want) {
 		t.Fatalf("terms %v, want %v", names, want)
 	}
@@ -117,13 +117,13 @@ func contains(s []string, v string) bool {
 
 // fitStudy fits every run of a simulated study with one noise model and
 // returns, per run and region, the fit.
-func fitStudy(t *testing.T, st *simulate.Study, noise string) [][]fit.RegionFit {
+func fitStudy(t *testing.T, st *simulate.Study, noise string) []*fit.RunFit {
 	t.Helper()
 	nm, err := fit.ParseNoise(noise)
 	if err != nil {
 		t.Fatal(err)
 	}
-	var out [][]fit.RegionFit
+	var out []*fit.RunFit
 	for _, r := range st.Runs {
 		var mot []fit.Column
 		for j, name := range simulate.MotionNames {
@@ -143,7 +143,7 @@ func fitStudy(t *testing.T, st *simulate.Study, noise string) [][]fit.RegionFit 
 		if err != nil {
 			t.Fatal(err)
 		}
-		out = append(out, rf.Regions)
+		out = append(out, rf)
 	}
 	return out
 }
@@ -166,18 +166,13 @@ func TestRecovery(t *testing.T) {
 	}
 	var ratios []float64
 	for i, r := range st.Runs {
-		d := fits[i]
-		for _, rf := range d {
-			c := fit.Contrast{Names: []string{"ordered"}, Weights: []float64{1}}
-			_ = c
+		j := fits[i].Design.TermIndex("ordered")
+		for _, rf := range fits[i].Regions {
 			want := truth[[3]string{r.Subject + "/" + r.Run, rf.Region, "ordered"}]
 			if want == 0 {
 				continue
 			}
-			psc := 100 * rf.Beta[0] / rf.Baseline
-			if idx := 0; idx >= 0 {
-				ratios = append(ratios, psc/want)
-			}
+			ratios = append(ratios, 100*rf.Beta[j]/rf.Baseline/want)
 		}
 	}
 	sort.Float64s(ratios)
@@ -205,7 +200,7 @@ func TestNullCalibrationAR1(t *testing.T) {
 	fits := fitStudy(t, st, "ar1")
 	n, hits := 0, 0
 	for _, run := range fits {
-		for _, rf := range run {
+		for _, rf := range run.Regions {
 			c := make([]float64, len(rf.Beta))
 			c[0] = 1
 			if rf.Contrast(c).PValue < 0.05 {

@@ -37,6 +37,10 @@ type Options struct {
 	// EffectLow, EffectHigh bound the planted group-level psc of active
 	// regions (default 0.3-1.0); subjects vary around it with sd 0.15.
 	EffectLow, EffectHigh float64
+	// Effects, when set, plants these group-level psc values (one per
+	// condition, in Conditions order) by region name instead of drawing
+	// them; regions it does not name have no effect.
+	Effects map[string][]float64
 	// NoDrift and NoMotion turn off drift and motion (for pure-noise
 	// calibration studies).
 	NoDrift, NoMotion bool
@@ -147,6 +151,21 @@ func Generate(o Options) (*Study, error) {
 				group[r][c] = o.EffectLow + (o.EffectHigh-o.EffectLow)*rng.Float64()
 			}
 		}
+		if o.Effects != nil {
+			e := o.Effects[o.RegionNames[r]]
+			for c := range group[r] {
+				group[r][c] = 0
+				if c < len(e) {
+					group[r][c] = e[c]
+				}
+			}
+		}
+	}
+	active := func(r int) bool {
+		if o.Effects != nil {
+			return o.Effects[o.RegionNames[r]] != nil
+		}
+		return r < nActive
 	}
 	for s := 0; s < o.Subjects; s++ {
 		subj := fmt.Sprintf("%02d", s+1)
@@ -154,7 +173,7 @@ func Generate(o Options) (*Study, error) {
 		for r := range subjEffect {
 			subjEffect[r] = make([]float64, len(o.Conditions))
 			for c := range subjEffect[r] {
-				if r < nActive {
+				if active(r) {
 					subjEffect[r][c] = group[r][c] + 0.15*rng.NormFloat64()
 				}
 			}

@@ -1,0 +1,73 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"sort"
+	"strings"
+
+	flag "github.com/spf13/pflag"
+
+	"github.com/tessera-fmri/tessera/fit"
+)
+
+var checkCommand = &command{
+	name:    "check",
+	args:    "STUDY [model flags]",
+	summary: "read and validate every input, build every design and print the design audit; fits nothing",
+	example: `tessera check study.csv
+tessera check study.csv --confounds csf,white_matter --highpass 100`,
+	flags: func() *flag.FlagSet { fs, _ := checkFlags(); return fs },
+}
+
+func init() { checkCommand.run = runCheck }
+
+func checkFlags() (*flag.FlagSet, *modelFlags) {
+	fs := flag.NewFlagSet("check", flag.ContinueOnError)
+	m := &modelFlags{}
+	m.register(fs)
+	return fs, m
+}
+
+func runCheck(args []string, stdout, stderr io.Writer) error {
+	fs, m := checkFlags()
+	if err := parseFlags(fs, args); err != nil {
+		return err
+	}
+	o, err := m.options()
+	if err != nil {
+		return err
+	}
+	l, err := m.load(fs.Args())
+	if err != nil {
+		return err
+	}
+	plans, err := fit.Plan(l.runs, o)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(stdout, "%s: %d run(s), conditions: %s\n\n", l.source, len(plans), strings.Join(fit.Conditions(plans), ", "))
+	fmt.Fprintf(stdout, "%-16s %6s %8s %6s %7s %10s  %s\n", "run", "TR", "volumes", "terms", "regions", "cond.num.", "events per condition")
+	var warnings []string
+	for _, p := range plans {
+		n, k := p.Design.X.Dims()
+		var ev []string
+		conds := append([]string(nil), p.Design.Conditions...)
+		sort.Strings(conds)
+		for _, c := range conds {
+			ev = append(ev, fmt.Sprintf("%s %d", c, p.Events[c]))
+		}
+		cond := "skipped"
+		if !p.Skipped() {
+			cond = fmt.Sprintf("%.3g", p.Condition)
+		}
+		fmt.Fprintf(stdout, "%-16s %6g %8d %6d %7d %10s  %s\n", p.Run.Spec.Key(), p.TR, n, k, len(p.Run.Signals.Names), cond, strings.Join(ev, ", "))
+		warnings = append(warnings, p.Run.Warnings...)
+		warnings = append(warnings, p.Warnings...)
+	}
+	for _, w := range warnings {
+		fmt.Fprintf(stderr, "warning: %s\n", w)
+	}
+	fmt.Fprintf(stdout, "\nevery design can be fitted (condition numbers of the unit-scaled designs, limit %.0g)\n", fit.ConditionNumberLimit)
+	return nil
+}

@@ -1,0 +1,144 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"sort"
+	"strings"
+
+	flag "github.com/spf13/pflag"
+
+	"github.com/tessera-fmri/tessera/fit"
+	"github.com/tessera-fmri/tessera/report"
+)
+
+var fitCommand = &command{
+	name:    "fit",
+	args:    "STUDY -o DIR [model flags]  |  tessera fit -s SIGNALS [-e EVENTS] [-c CONFOUNDS] --tr S -o DIR [model flags]",
+	summary: "fit every run, combine runs within each subject, write the tables and the report",
+	example: `tessera fit study.csv -o results --contrast 'shape = ordered - jumbled'
+tessera fit -s sub-01_signals.csv -e sub-01_events.tsv -c sub-01_confounds.csv --tr 2 -o results --noise ar:2`,
+	flags: func() *flag.FlagSet { fs, _, _ := fitFlags(); return fs },
+}
+
+func init() { fitCommand.run = runFit }
+
+func fitFlags() (*flag.FlagSet, *modelFlags, *string) {
+	fs := flag.NewFlagSet("fit", flag.ContinueOnError)
+	m := &modelFlags{}
+	m.register(fs)
+	out := fs.StringP("output", "o", "", "folder for the results (required)")
+	return fs, m, out
+}
+
+func runFit(args []string, stdout, stderr io.Writer) error {
+	fs, m, out := fitFlags()
+	if err := parseFlags(fs, args); err != nil {
+		return err
+	}
+	if *out == "" {
+		return usagef("-o DIR is required: the folder for the results")
+	}
+	res, err := fitStudy(fs, m, fs.Args(), *out, "tessera "+strings.Join(append([]string{"fit"}, args...), " "))
+	if err != nil {
+		return err
+	}
+	printSummary(stdout, res, *out)
+	for _, w := range res.Warnings {
+		fmt.Fprintf(stderr, "warning: %s\n", w)
+	}
+	return nil
+}
+
+// fitStudy reads, plans, fits and writes one study into outDir.
+func fitStudy(fs *flag.FlagSet, m *modelFlags, args []string, outDir, command string) (*fit.StudyResult, error) {
+	tm := newTimer()
+	o, err := m.options()
+	if err != nil {
+		return nil, err
+	}
+	l, err := m.load(args)
+	if err != nil {
+		return nil, err
+	}
+	if err := checkOutputDir(outDir, l.inputs); err != nil {
+		return nil, err
+	}
+	tm.mark("read")
+	plans, err := fit.Plan(l.runs, o)
+	if err != nil {
+		return nil, err
+	}
+	res, err := fit.FitStudy(plans, o)
+	if err != nil {
+		return nil, err
+	}
+	tm.mark("fit")
+	prov := &report.Provenance{Program: "tessera", Version: version, Command: os.Args, Options: map[string]string{}, Timings: tm.marks}
+	fs.VisitAll(func(f *flag.Flag) { prov.Options[f.Name] = f.Value.String() })
+	for _, in := range l.inputs {
+		h, err := report.HashFile(in)
+		if err != nil {
+			return nil, err
+		}
+		prov.Inputs = append(prov.Inputs, h)
+	}
+	prov.Warnings = res.Warnings
+	outp, err := report.NewOutput(outDir)
+	if err != nil {
+		return nil, err
+	}
+	files := []string{"report.md", "estimates.csv", "contrasts.csv", "subject_contrasts.csv", "diagnostics.csv", "design/", "provenance.json"}
+	if err := report.WriteTables(outp, res); err != nil {
+		outp.Abort()
+		return nil, err
+	}
+	if err := report.WriteMarkdown(outp, res, report.ReportInfo{Study: l.source, Command: command, Outputs: files}); err != nil {
+		outp.Abort()
+		return nil, err
+	}
+	tm.mark("write")
+	if err := report.WriteProvenance(outp, prov); err != nil {
+		outp.Abort()
+		return nil, err
+	}
+	if err := outp.Commit(); err != nil {
+		return nil, err
+	}
+	return res, nil
+}
+
+// printSummary tells what was fitted, the strongest subject-level findings
+// and where the report is.
+func printSummary(w io.Writer, res *fit.StudyResult, outDir string) {
+	regions := 0
+	for _, r := range res.Runs {
+		if r.Fit != nil {
+			regions += len(r.Fit.Regions)
+		}
+	}
+	fmt.Fprintf(w, "fitted %d run(s), %d region fits, noise model %s\n", len(res.Runs), regions, res.Options.Noise.Name)
+	for _, c := range res.Contrasts {
+		var rows []fit.SubjectResult
+		for _, s := range res.Subjects {
+			if s.Contrast == c.Name {
+				rows = append(rows, s)
+			}
+		}
+		sort.SliceStable(rows, func(i, j int) bool { return math.Abs(rows[i].Statistic) > math.Abs(rows[j].Statistic) })
+		fmt.Fprintf(w, "contrast %s: strongest subject-level results\n", c.Name)
+		for i, s := range rows {
+			if i == 3 {
+				break
+			}
+			fmt.Fprintf(w, "  subject %s  %-16s psc %6.3f%%  t %6.2f  q %s\n", s.Subject, s.Region, s.PSC, s.Statistic, report.FormatQ(s.Q))
+		}
+	}
+	fmt.Fprintf(w, "report: %s\n", joinPath(outDir, "report.md"))
+}
+
+func joinPath(dir, file string) string {
+	return strings.TrimSuffix(dir, string(os.PathSeparator)) + string(os.PathSeparator) + file
+}
