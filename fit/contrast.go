@@ -146,22 +146,110 @@ func (c Contrast) Check(known []string) error {
 		if !set[n] {
 			ks := append([]string(nil), known...)
 			sort.Strings(ks)
-			return fmt.Errorf("contrast %q names %q, which is not a condition of this study; known conditions: %s", c.Name, n, strings.Join(ks, ", "))
+			return fmt.Errorf("contrast %q names %q, which is not a condition or term of this study; known: %s", c.Name, n, strings.Join(ks, ", "))
 		}
 	}
 	return nil
 }
 
 // Vector returns c over the design's terms, and false when the design lacks
-// one of the names (the condition has no events in this run).
+// one of the names (the condition has no events in this run). A name is a
+// term name (a condition's main term, CONDITION:time, CONDITION:COLUMN,
+// CONDITION:bin:K); in an FIR model a bare condition name stands for the
+// mean of its bins, the average response over the window.
 func (c Contrast) Vector(d *Design) ([]float64, bool) {
 	v := make([]float64, len(d.Terms))
 	for i, n := range c.Names {
-		j := d.TermIndex(n)
-		if j < 0 {
+		if j := d.TermIndex(n); j >= 0 {
+			v[j] += c.Weights[i]
+			continue
+		}
+		var bins []int
+		for _, j := range d.ConditionTerms(n) {
+			if d.Terms[j].Kind == TermFIR {
+				bins = append(bins, j)
+			}
+		}
+		if len(bins) == 0 {
 			return nil, false
 		}
-		v[j] += c.Weights[i]
+		for _, j := range bins {
+			v[j] += c.Weights[i] / float64(len(bins))
+		}
 	}
 	return v, true
+}
+
+// FTest is a named set of contrast rows tested together.
+type FTest struct {
+	Name string
+	Rows []Contrast
+}
+
+// ParseFTest reads an --ftest value 'NAME = EXPR; EXPR; ...'.
+func ParseFTest(s string) (FTest, error) {
+	i := strings.Index(s, "=")
+	if i < 0 {
+		return FTest{}, fmt.Errorf("--ftest %q: expected 'NAME = EXPR; EXPR; ...'", s)
+	}
+	ft := FTest{Name: strings.TrimSpace(s[:i])}
+	if ft.Name == "" {
+		return FTest{}, fmt.Errorf("--ftest %q: the name before '=' is empty", s)
+	}
+	for k, part := range strings.Split(s[i+1:], ";") {
+		part = strings.TrimSpace(part)
+		if part == "" {
+			continue
+		}
+		names, weights, err := parseWeightedSum(part)
+		if err != nil {
+			return FTest{}, fmt.Errorf("--ftest %q, row %d: %v", s, k+1, err)
+		}
+		ft.Rows = append(ft.Rows, Contrast{Name: ft.Name, Expr: part, Names: names, Weights: weights})
+	}
+	if len(ft.Rows) == 0 {
+		return FTest{}, fmt.Errorf("--ftest %q has no rows", s)
+	}
+	return ft, nil
+}
+
+// Matrix returns the rows of the test over the design's terms, and false
+// when the design lacks a name.
+func (f FTest) Matrix(d *Design) ([][]float64, bool) {
+	var rows [][]float64
+	for _, r := range f.Rows {
+		v, ok := r.Vector(d)
+		if !ok {
+			return nil, false
+		}
+		rows = append(rows, v)
+	}
+	return rows, true
+}
+
+// Check returns an error when a row names something not in known.
+func (f FTest) Check(known []string) error {
+	for _, r := range f.Rows {
+		r.Name = f.Name
+		if err := r.Check(known); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// ConditionFTest is the default F test of every term of one condition (main
+// and derivatives, or FIR bins), named after the condition.
+func ConditionFTest(d *Design, cond string) ([][]float64, bool) {
+	terms := d.ConditionTerms(cond)
+	var rows [][]float64
+	for _, j := range terms {
+		if d.Terms[j].Kind == TermModulator {
+			continue
+		}
+		r := make([]float64, len(d.Terms))
+		r[j] = 1
+		rows = append(rows, r)
+	}
+	return rows, len(rows) > 0
 }

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strconv"
 	"strings"
 
 	"gonum.org/v1/gonum/mat"
@@ -16,18 +17,25 @@ type TermKind int
 
 // Kinds of design terms, in the order they appear in a design.
 const (
-	TermCondition TermKind = iota
+	TermCondition  TermKind = iota // a condition's main response
+	TermDerivative                 // CONDITION:time or CONDITION:dispersion
+	TermModulator                  // CONDITION:COLUMN, a parametric modulator
+	TermFIR                        // CONDITION:bin:K
 	TermDrift
 	TermMotion
 	TermConfound
+	TermCensor // censor:VOLUME, one censored volume
 	TermIntercept
 )
 
 // Term is one column of a design.
 type Term struct {
-	Name      string // condition name, drift:K, motion:COLUMN, confound:COLUMN, intercept
+	Name      string // condition name, CONDITION:time, drift:K, motion:COLUMN, censor:V, intercept, ...
 	Kind      TermKind
-	Condition string // for condition terms
+	Condition string  // for condition, derivative, modulator and FIR terms
+	Bin       int     // FIR bin, from 0
+	Time      float64 // FIR: centre of the bin in seconds after onset
+	Volume    int     // censor: the volume, counted from 0 among the kept volumes
 }
 
 // Column is a named series of values, one per volume.
@@ -36,16 +44,43 @@ type Column struct {
 	Values []float64
 }
 
+// Modulator asks for a parametric regressor of Condition from the events
+// column Column (--modulate CONDITION=COLUMN).
+type Modulator struct {
+	Condition, Column string
+}
+
+// Derivative names accepted by --hrf-derivatives.
+const (
+	DerivativeTime       = "time"
+	DerivativeDispersion = "dispersion"
+)
+
 // DesignSpec is everything one run's design is built from.
 type DesignSpec struct {
 	Volumes  int
 	TR       float64 // seconds
 	SliceRef float64 // fraction of TR at which each volume is sampled
-	Highpass float64 // seconds; 0 turns drift terms off
-	HRF      string  // response model name; only double-gamma for now
-	Events   []roi.Event
-	Motion   []Column // the six rigid-body columns, or none
-	Confound []Column // further named confounds
+	Highpass float64 // seconds; 0 turns cosine drift terms off
+	// Poly > 0 replaces the cosine drift terms by Legendre polynomials of
+	// orders 1..Poly (--drift poly:K).
+	Poly int
+	HRF  string // double-gamma (default), gamma or fir
+	// Derivatives adds, per condition, the double-gamma's time and/or
+	// dispersion derivative, orthogonalised to the main term.
+	Derivatives []string
+	// FIRWindow (seconds) and FIRBins define the FIR bins with --hrf fir.
+	FIRWindow float64
+	FIRBins   int
+	Modulate  []Modulator
+	Events    []roi.Event
+	Motion    []Column // the six rigid-body columns, or none
+	// MotionTerms is 6 (as given), 12 (plus backward differences) or 24
+	// (plus the squares of both); 0 means 6.
+	MotionTerms int
+	Confound    []Column // further named confounds
+	// Censor marks volumes that get an indicator term each.
+	Censor []bool
 }
 
 // Design is one run's design matrix and its term names.
@@ -60,6 +95,10 @@ type Design struct {
 	MedianDuration map[string]float64
 	// Conditions lists condition names in design order.
 	Conditions []string
+	// Censored marks the censored volumes (nil when none are).
+	Censored []bool
+	// Warnings are remarks about the design in plain words.
+	Warnings []string
 }
 
 // TermIndex returns the column of the named term, or -1.
@@ -72,6 +111,29 @@ func (d *Design) TermIndex(name string) int {
 	return -1
 }
 
+// ConditionTerms returns the columns of every term that belongs to the
+// condition (main, derivatives, modulators, FIR bins).
+func (d *Design) ConditionTerms(cond string) []int {
+	var out []int
+	for i, t := range d.Terms {
+		if t.Condition == cond && t.Kind <= TermFIR {
+			out = append(out, i)
+		}
+	}
+	return out
+}
+
+// CensoredCount is the number of censored volumes.
+func (d *Design) CensoredCount() int {
+	n := 0
+	for _, c := range d.Censored {
+		if c {
+			n++
+		}
+	}
+	return n
+}
+
 // fineSteps returns m, the number of fine-grid steps per TR: at least 16
 // (the contract's TR/16) and fine enough that a step is at most 0.1 s.
 func fineSteps(tr float64) int {
@@ -82,19 +144,21 @@ func fineSteps(tr float64) int {
 	return m
 }
 
-// BuildDesign builds the design of one run: condition regressors, cosine
-// drift terms, motion and confound columns (mean-centred, never rescaled),
-// then the intercept. Conditions appear sorted by name, so every run of a
-// study has its condition terms in the same order.
+// BuildDesign builds the design of one run: condition terms (per
+// condition, sorted by name: the main response, then derivatives and
+// modulators; or its FIR bins), drift terms, motion and confound columns
+// (mean-centred, never rescaled), censor indicators, then the intercept.
 func BuildDesign(s DesignSpec) (*Design, error) {
 	if s.Volumes < 1 {
 		return nil, fmt.Errorf("run has no volumes")
 	}
-	if s.HRF != "" && s.HRF != HRFDoubleGamma {
-		return nil, fmt.Errorf("--hrf %q: expected %s", s.HRF, HRFDoubleGamma)
+	switch s.HRF {
+	case "", HRFDoubleGamma, HRFGamma, HRFFIR:
+	default:
+		return nil, fmt.Errorf("--hrf %q: expected %s, %s or %s", s.HRF, HRFDoubleGamma, HRFGamma, HRFFIR)
 	}
 	d := &Design{Peak: map[string]float64{}, MedianDuration: map[string]float64{}}
-	var cols [][]float64
+	b := &builder{d: d}
 
 	byCond := map[string][]roi.Event{}
 	for _, ev := range s.Events {
@@ -104,65 +168,59 @@ func BuildDesign(s DesignSpec) (*Design, error) {
 		byCond[ev.Condition] = append(byCond[ev.Condition], ev)
 	}
 	sort.Strings(d.Conditions)
-	m := fineSteps(s.TR)
-	dt := s.TR / float64(m)
-	kernel := sampledResponse(dt)
-	for _, c := range d.Conditions {
-		evs := byCond[c]
-		reg := convolvedRegressor(evs, s.Volumes, s.TR, s.SliceRef, m, kernel)
-		med := medianDuration(evs)
-		peak := isolatedPeak(med, dt, kernel)
-		if peak <= 0 {
-			return nil, fmt.Errorf("condition %q: its modelled response has no positive peak", c)
+	for _, m := range s.Modulate {
+		if _, ok := byCond[m.Condition]; !ok {
+			d.Warnings = append(d.Warnings, fmt.Sprintf("--modulate %s=%s: the run has no events of %q, so no modulator term", m.Condition, m.Column, m.Condition))
 		}
-		for i := range reg {
-			reg[i] /= peak
-		}
-		d.Peak[c] = peak
-		d.MedianDuration[c] = med
-		cols = append(cols, reg)
-		d.Terms = append(d.Terms, Term{Name: c, Kind: TermCondition, Condition: c})
 	}
-	for k, dc := range CosineDrift(s.Volumes, s.TR, s.Highpass) {
-		cols = append(cols, dc)
-		d.Terms = append(d.Terms, Term{Name: fmt.Sprintf("drift:%d", k+1), Kind: TermDrift})
+	if s.HRF == HRFFIR {
+		if err := b.addFIR(s, byCond); err != nil {
+			return nil, err
+		}
+	} else if err := b.addResponses(s, byCond); err != nil {
+		return nil, err
 	}
-	add := func(c Column, prefix string, kind TermKind) error {
-		if len(c.Values) != s.Volumes {
-			return fmt.Errorf("%s column %q has %d values for %d volumes", prefix, c.Name, len(c.Values), s.Volumes)
+	if s.Poly > 0 {
+		for k, c := range LegendreDrift(s.Volumes, s.Poly) {
+			b.add(c, Term{Name: fmt.Sprintf("drift:%d", k+1), Kind: TermDrift})
 		}
-		mean := 0.0
-		for t, v := range c.Values {
-			if math.IsNaN(v) || math.IsInf(v, 0) {
-				return fmt.Errorf("%s column %q has a missing or non-finite value at volume %d (data row %d)", prefix, c.Name, t, t+1)
-			}
-			mean += v
+	} else {
+		for k, c := range CosineDrift(s.Volumes, s.TR, s.Highpass) {
+			b.add(c, Term{Name: fmt.Sprintf("drift:%d", k+1), Kind: TermDrift})
 		}
-		mean /= float64(len(c.Values))
-		v := make([]float64, len(c.Values))
-		for t, x := range c.Values {
-			v[t] = x - mean
-		}
-		cols = append(cols, v)
-		d.Terms = append(d.Terms, Term{Name: prefix + ":" + c.Name, Kind: kind})
-		return nil
 	}
-	for _, c := range s.Motion {
-		if err := add(c, "motion", TermMotion); err != nil {
+	motion, err := ExpandMotion(s.Motion, s.MotionTerms)
+	if err != nil {
+		return nil, err
+	}
+	for _, c := range motion {
+		if err := b.addCentred(c, "motion", TermMotion, s.Volumes); err != nil {
 			return nil, err
 		}
 	}
 	for _, c := range s.Confound {
-		if err := add(c, "confound", TermConfound); err != nil {
+		if err := b.addCentred(c, "confound", TermConfound, s.Volumes); err != nil {
 			return nil, err
+		}
+	}
+	if s.Censor != nil {
+		if len(s.Censor) != s.Volumes {
+			panic("fit: censor mask does not match the volumes")
+		}
+		d.Censored = append([]bool(nil), s.Censor...)
+		for v, c := range s.Censor {
+			if c {
+				ind := make([]float64, s.Volumes)
+				ind[v] = 1
+				b.add(ind, Term{Name: fmt.Sprintf("censor:%d", v), Kind: TermCensor, Volume: v})
+			}
 		}
 	}
 	one := make([]float64, s.Volumes)
 	for i := range one {
 		one[i] = 1
 	}
-	cols = append(cols, one)
-	d.Terms = append(d.Terms, Term{Name: "intercept", Kind: TermIntercept})
+	b.add(one, Term{Name: "intercept", Kind: TermIntercept})
 
 	seen := map[string]bool{}
 	for _, t := range d.Terms {
@@ -171,23 +229,216 @@ func BuildDesign(s DesignSpec) (*Design, error) {
 		}
 		seen[t.Name] = true
 	}
-	d.X = mat.NewDense(s.Volumes, len(cols), nil)
-	for j, c := range cols {
+	d.X = mat.NewDense(s.Volumes, len(b.cols), nil)
+	for j, c := range b.cols {
 		d.X.SetCol(j, c)
 	}
 	return d, nil
 }
 
-// sampledResponse returns the convolution kernel on the fine grid:
-// h_j = DoubleGamma((j - ½) dt), j >= 1, h_0 = 0, up to responseLength
+// builder accumulates a design's columns and terms.
+type builder struct {
+	d    *Design
+	cols [][]float64
+}
+
+func (b *builder) add(col []float64, t Term) {
+	b.cols = append(b.cols, col)
+	b.d.Terms = append(b.d.Terms, t)
+}
+
+// addCentred adds a confound column, mean-centred and never rescaled.
+func (b *builder) addCentred(c Column, prefix string, kind TermKind, volumes int) error {
+	if len(c.Values) != volumes {
+		return fmt.Errorf("%s column %q has %d values for %d volumes", prefix, c.Name, len(c.Values), volumes)
+	}
+	mean := 0.0
+	for t, v := range c.Values {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return fmt.Errorf("%s column %q has a missing or non-finite value at volume %d (data row %d)", prefix, c.Name, t, t+1)
+		}
+		mean += v
+	}
+	mean /= float64(len(c.Values))
+	v := make([]float64, len(c.Values))
+	for t, x := range c.Values {
+		v[t] = x - mean
+	}
+	b.add(v, Term{Name: prefix + ":" + c.Name, Kind: kind})
+	return nil
+}
+
+// addResponses adds each condition's convolved response, scaled to peak at
+// 1 for one typical event, with its derivatives and modulators.
+func (b *builder) addResponses(s DesignSpec, byCond map[string][]roi.Event) error {
+	m := fineSteps(s.TR)
+	dt := s.TR / float64(m)
+	kernel := sampledResponse(responseFunc(s.HRF), dt)
+	var derivKernels [][]float64
+	for _, name := range s.Derivatives {
+		if s.HRF == HRFGamma {
+			return fmt.Errorf("--hrf-derivatives are defined for the %s response, not %s", HRFDoubleGamma, s.HRF)
+		}
+		switch name {
+		case DerivativeTime:
+			derivKernels = append(derivKernels, sampledResponse(DoubleGammaTimeDerivative, dt))
+		case DerivativeDispersion:
+			derivKernels = append(derivKernels, sampledResponse(DoubleGammaDispersionDerivative, dt))
+		default:
+			return fmt.Errorf("--hrf-derivatives %q: expected time or time,dispersion", name)
+		}
+	}
+	for _, c := range b.d.Conditions {
+		evs := byCond[c]
+		reg := convolvedRegressor(evs, s.Volumes, s.TR, s.SliceRef, m, kernel)
+		med := medianDuration(evs)
+		peak := isolatedPeak(med, dt, kernel)
+		if peak <= 0 {
+			return fmt.Errorf("condition %q: its modelled response has no positive peak", c)
+		}
+		scale(reg, 1/peak)
+		b.d.Peak[c] = peak
+		b.d.MedianDuration[c] = med
+		b.add(reg, Term{Name: c, Kind: TermCondition, Condition: c})
+		for i, k := range derivKernels {
+			dr := convolvedRegressor(evs, s.Volumes, s.TR, s.SliceRef, m, k)
+			scale(dr, 1/peak)
+			orthogonalise(dr, reg)
+			b.add(dr, Term{Name: c + ":" + s.Derivatives[i], Kind: TermDerivative, Condition: c})
+		}
+		for _, mod := range s.Modulate {
+			if mod.Condition != c {
+				continue
+			}
+			mev, warn, err := modulatedEvents(evs, mod)
+			if err != nil {
+				return err
+			}
+			if warn != "" {
+				b.d.Warnings = append(b.d.Warnings, warn)
+			}
+			mr := convolvedRegressor(mev, s.Volumes, s.TR, s.SliceRef, m, kernel)
+			scale(mr, 1/peak)
+			orthogonalise(mr, reg)
+			b.add(mr, Term{Name: c + ":" + mod.Column, Kind: TermModulator, Condition: c})
+		}
+	}
+	return nil
+}
+
+// modulatedEvents returns the condition's events with amplitude the
+// modulator value minus its mean within the condition (Büchel et al. 1998,
+// NeuroImage 8:140-148, parametric modulation). Events whose value is
+// missing get the mean (amplitude 0), with a warning naming their lines.
+func modulatedEvents(evs []roi.Event, mod Modulator) ([]roi.Event, string, error) {
+	vals := make([]float64, len(evs))
+	var missing []string
+	sum, n := 0.0, 0
+	for i, ev := range evs {
+		text, ok := ev.Extra[mod.Column]
+		if !ok {
+			return nil, "", fmt.Errorf("--modulate %s=%s: the events table has no column %q", mod.Condition, mod.Column, mod.Column)
+		}
+		text = strings.TrimSpace(text)
+		if text == "" || text == "n/a" || text == "NA" || text == "NaN" || text == "nan" {
+			vals[i] = math.NaN()
+			missing = append(missing, fmt.Sprint(ev.Line))
+			continue
+		}
+		v, err := strconv.ParseFloat(text, 64)
+		if err != nil || math.IsInf(v, 0) || math.IsNaN(v) {
+			return nil, "", fmt.Errorf("events line %d: column %q has %q; expected a number for --modulate %s=%s", ev.Line, mod.Column, text, mod.Condition, mod.Column)
+		}
+		vals[i] = v
+		sum += v
+		n++
+	}
+	if n == 0 {
+		return nil, "", fmt.Errorf("--modulate %s=%s: every event of %q has a missing %s", mod.Condition, mod.Column, mod.Condition, mod.Column)
+	}
+	mean := sum / float64(n)
+	out := make([]roi.Event, len(evs))
+	for i, ev := range evs {
+		out[i] = ev
+		out[i].Amplitude = 0
+		if !math.IsNaN(vals[i]) {
+			out[i].Amplitude = vals[i] - mean
+		}
+	}
+	warn := ""
+	if len(missing) > 0 {
+		warn = fmt.Sprintf("--modulate %s=%s: events on lines %s have no value and were given the condition's mean", mod.Condition, mod.Column, strings.Join(missing, ", "))
+	}
+	return out, warn, nil
+}
+
+// addFIR adds N bins per condition: bin K is 1 in a volume sampled between
+// K·w and (K+1)·w seconds after an event's onset (w = window/N), summed
+// over events and weighted by amplitude; durations are not used. An
+// estimate is then the response K·w to (K+1)·w seconds after onset, in
+// signal units (Glover 1999 discusses FIR estimation of the response).
+func (b *builder) addFIR(s DesignSpec, byCond map[string][]roi.Event) error {
+	if s.FIRBins < 1 || s.FIRWindow <= 0 {
+		return fmt.Errorf("--hrf fir needs --fir-window S > 0 and --fir-bins N >= 1 (found %g and %d)", s.FIRWindow, s.FIRBins)
+	}
+	if len(s.Derivatives) > 0 || len(s.Modulate) > 0 {
+		return fmt.Errorf("--hrf fir does not combine with --hrf-derivatives or --modulate")
+	}
+	w := s.FIRWindow / float64(s.FIRBins)
+	for _, c := range b.d.Conditions {
+		bins := make([][]float64, s.FIRBins)
+		for k := range bins {
+			bins[k] = make([]float64, s.Volumes)
+		}
+		for _, ev := range byCond[c] {
+			for n := 0; n < s.Volumes; n++ {
+				lag := (float64(n)+s.SliceRef)*s.TR - ev.Onset
+				if lag < 0 || lag >= s.FIRWindow {
+					continue
+				}
+				k := min(int(lag/w), s.FIRBins-1)
+				bins[k][n] += ev.Amplitude
+			}
+		}
+		for k, col := range bins {
+			b.add(col, Term{Name: fmt.Sprintf("%s:bin:%d", c, k), Kind: TermFIR, Condition: c, Bin: k, Time: (float64(k) + 0.5) * w})
+		}
+	}
+	return nil
+}
+
+func scale(x []float64, f float64) {
+	for i := range x {
+		x[i] *= f
+	}
+}
+
+// orthogonalise removes from x its projection on y: x ← x - (x'y / y'y) y.
+func orthogonalise(x, y []float64) {
+	xy, yy := 0.0, 0.0
+	for i := range x {
+		xy += x[i] * y[i]
+		yy += y[i] * y[i]
+	}
+	if yy == 0 {
+		return
+	}
+	f := xy / yy
+	for i := range x {
+		x[i] -= f * y[i]
+	}
+}
+
+// sampledResponse returns the convolution kernel of response f on the fine
+// grid: h_j = f((j - ½) dt), j >= 1, h_0 = 0, up to responseLength
 // seconds. The input mass of grid cell c sits at its midpoint (c + ½) dt,
 // so the response at grid time i·dt is sum_c u_c h_{i-c}: the midpoint rule,
 // exact to O(dt²).
-func sampledResponse(dt float64) []float64 {
+func sampledResponse(f func(float64) float64, dt float64) []float64 {
 	n := int(responseLength/dt) + 2
 	h := make([]float64, n)
 	for j := 1; j < n; j++ {
-		h[j] = DoubleGamma((float64(j) - 0.5) * dt)
+		h[j] = f((float64(j) - 0.5) * dt)
 	}
 	return h
 }

@@ -78,7 +78,7 @@ func FitRun(d *Design, names []string, y [][]float64, noise NoiseModel) (*RunFit
 	for r, yr := range y {
 		out := RegionFit{Region: names[r]}
 		mean, tss := meanSS(yr)
-		out.Baseline = mean
+		out.Baseline = baseline(yr, d.Censored)
 		if tss <= 1e-24*math.Max(1, mean*mean)*float64(n) {
 			out.Skip = "constant signal"
 			rf.Regions[r] = out
@@ -126,6 +126,18 @@ func FitRun(d *Design, names []string, y [][]float64, noise NoiseModel) (*RunFit
 		rf.Regions[r] = out
 	}
 	return rf, nil
+}
+
+// baseline is the mean signal over the volumes that are not censored.
+func baseline(y []float64, censored []bool) float64 {
+	s, n := 0.0, 0
+	for t, v := range y {
+		if censored == nil || !censored[t] {
+			s += v
+			n++
+		}
+	}
+	return s / float64(n)
 }
 
 func meanSS(y []float64) (mean, ss float64) {

@@ -41,3 +41,52 @@ func GammaPDF(t, shape float64) float64 {
 func DoubleGamma(t float64) float64 {
 	return GammaPDF(t, dgPeakShape) - dgUndershootRatio*GammaPDF(t, dgUndershootShape)
 }
+
+// More response models accepted by --hrf.
+const (
+	HRFGamma = "gamma" // a single gamma density, shape 6, unit scale: no undershoot
+	HRFFIR   = "fir"   // finite impulse response bins (see FIRRegressors)
+)
+
+// gammaPDFDerivative returns d/dt of GammaPDF(t, a):
+//
+//	f'(t) = f(t) ((a - 1)/t - 1).
+func gammaPDFDerivative(t, a float64) float64 {
+	if t <= 0 {
+		return 0
+	}
+	return GammaPDF(t, a) * ((a-1)/t - 1)
+}
+
+// DoubleGammaTimeDerivative returns h'(t), the derivative of DoubleGamma
+// with respect to time. A response that comes δ seconds earlier than the
+// model, h(t + δ) ≈ h(t) + δ h'(t), loads positively on this term.
+func DoubleGammaTimeDerivative(t float64) float64 {
+	return gammaPDFDerivative(t, dgPeakShape) - dgUndershootRatio*gammaPDFDerivative(t, dgUndershootShape)
+}
+
+// DoubleGammaScaled is the double-gamma with both gamma densities at scale s
+// (width s times the standard one): h_s(t) = h(t/s)/s.
+func DoubleGammaScaled(t, s float64) float64 {
+	return DoubleGamma(t/s) / s
+}
+
+// DoubleGammaDispersionDerivative returns ∂h_s(t)/∂s at s = 1,
+//
+//	-(h(t) + t h'(t)),
+//
+// the change of the response as it widens: a response wider than the model
+// loads positively on this term.
+func DoubleGammaDispersionDerivative(t float64) float64 {
+	return -(DoubleGamma(t) + t*DoubleGammaTimeDerivative(t))
+}
+
+// responseFunc returns the response model's function of time.
+func responseFunc(hrf string) func(float64) float64 {
+	switch hrf {
+	case HRFGamma:
+		return func(t float64) float64 { return GammaPDF(t, dgPeakShape) }
+	default:
+		return DoubleGamma
+	}
+}

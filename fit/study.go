@@ -24,6 +24,25 @@ type Options struct {
 	Motion    []string
 	Confounds []string
 	Jobs      int
+
+	// Design options (see DesignSpec).
+	Poly        int // --drift poly:K
+	Derivatives []string
+	FIRWindow   float64
+	FIRBins     int
+	Modulate    []Modulator
+	MotionTerms int
+	// RotationDegrees says the rotation columns are in degrees (for
+	// framewise displacement only; the columns enter the design as given).
+	RotationDegrees bool
+	// CensorFD > 0 censors volumes whose framewise displacement exceeds it
+	// (mm).
+	CensorFD float64
+	// SkipVolumes drops the first volumes of every run; onsets stay
+	// relative to the original first volume.
+	SkipVolumes int
+	FTests      []FTest
+	Audit       AuditThresholds
 }
 
 // DefaultMotion are the motion columns taken when --motion is not given.
@@ -38,6 +57,14 @@ type RunPlan struct {
 	Condition float64 // condition number of the equilibrated design
 	Events    map[string]int
 	Warnings  []string
+	// Regions and Y are the region names and signals over the kept volumes
+	// (after --skip-volumes).
+	Regions []string
+	Y       [][]float64
+	// FD is the framewise displacement per kept volume (nil without
+	// motion columns).
+	FD    []float64
+	Audit []AuditRow
 }
 
 // Plan builds and checks the design of every run. Any run whose design
@@ -58,8 +85,36 @@ func Plan(runs []*roi.Run, o Options) ([]*RunPlan, error) {
 	if len(problems) > 0 {
 		return nil, fmt.Errorf("%s", strings.Join(problems, "\n"))
 	}
-	if err := checkContrasts(plans, o.Contrasts); err != nil {
+	if err := checkContrasts(plans, o.Contrasts, o.FTests); err != nil {
 		return nil, err
+	}
+	cs := o.Contrasts
+	if len(cs) == 0 {
+		cs = DefaultContrasts(plans)
+	}
+	th := o.Audit
+	if th == (AuditThresholds{}) {
+		th = DefaultAuditThresholds
+	}
+	best := map[string]float64{}
+	for _, p := range plans {
+		rows, warns := Audit(p.Run.Spec.Key(), p.Design, p.Condition, cs, th)
+		p.Audit = rows
+		p.Warnings = append(p.Warnings, warns...)
+		for _, r := range rows {
+			if r.Measure == "efficiency" {
+				best[r.Item] = math.Max(best[r.Item], r.Value)
+			}
+		}
+	}
+	for _, p := range plans {
+		var rel []AuditRow
+		for _, r := range p.Audit {
+			if r.Measure == "efficiency" && best[r.Item] > 0 {
+				rel = append(rel, AuditRow{Item: r.Item, Measure: "relative_efficiency", Value: r.Value / best[r.Item]})
+			}
+		}
+		p.Audit = append(p.Audit, rel...)
 	}
 	return plans, nil
 }
@@ -69,17 +124,30 @@ func planRun(r *roi.Run, o Options) (*RunPlan, error) {
 	if o.TR > 0 {
 		tr = o.TR
 	}
-	n := r.Signals.Rows()
-	spec := DesignSpec{Volumes: n, TR: tr, SliceRef: o.SliceRef, Highpass: o.Highpass, HRF: o.HRF}
-	p := &RunPlan{Run: r, TR: tr, Events: map[string]int{}}
+	key := r.Spec.Key()
+	total := r.Signals.Rows()
+	skip := o.SkipVolumes
+	if skip >= total {
+		return nil, fmt.Errorf("run %s: --skip-volumes %d leaves none of its %d volumes", key, skip, total)
+	}
+	n := total - skip
+	spec := DesignSpec{Volumes: n, TR: tr, SliceRef: o.SliceRef, Highpass: o.Highpass, Poly: o.Poly, HRF: o.HRF,
+		Derivatives: o.Derivatives, FIRWindow: o.FIRWindow, FIRBins: o.FIRBins, Modulate: o.Modulate, MotionTerms: o.MotionTerms}
+	p := &RunPlan{Run: r, TR: tr, Events: map[string]int{}, Regions: r.Signals.Names}
+	p.Y = make([][]float64, len(r.Signals.Cols))
+	for i, c := range r.Signals.Cols {
+		p.Y[i] = c[skip:]
+	}
 	if r.Events != nil {
-		spec.Events = r.Events.Events
-		for _, e := range spec.Events {
+		shift := float64(skip) * tr
+		for _, e := range r.Events.Events {
+			e.Onset -= shift
+			spec.Events = append(spec.Events, e)
 			p.Events[e.Condition]++
 		}
 	}
 	where := r.Spec.Confounds
-	pick := func(names []string, required bool) ([]Column, error) {
+	pick := func(names []string) ([]Column, error) {
 		var cols []Column
 		for _, name := range names {
 			var v []float64
@@ -88,13 +156,16 @@ func planRun(r *roi.Run, o Options) (*RunPlan, error) {
 			}
 			if v == nil {
 				if r.Confounds == nil {
-					return nil, fmt.Errorf("run %s: column %q was asked for but the run has no confounds table", r.Spec.Key(), name)
+					return nil, fmt.Errorf("run %s: column %q was asked for but the run has no confounds table", key, name)
 				}
-				return nil, fmt.Errorf("%s: no column %q; the header has %s", where, name, strings.Join(r.Confounds.Names, ", "))
+				return nil, &roi.InputError{File: where, Line: 1, Found: fmt.Sprintf("no column %q", name),
+					Expected: "one of the header's columns: " + strings.Join(r.Confounds.Names, ", ")}
 			}
+			v = v[skip:]
 			for t, x := range v {
 				if math.IsNaN(x) {
-					return nil, fmt.Errorf("%s:%d: column %q is missing a value at volume %d; expected a number in every row of a column the model uses", where, t+2, name, t)
+					return nil, &roi.InputError{File: where, Line: t + skip + 2, Column: columnIndex(r.Confounds.Names, name) + 1, Field: name,
+						Found: fmt.Sprintf("a missing value (volume %d)", t+skip), Expected: "a number in every row of a column the model uses"}
 				}
 			}
 			cols = append(cols, Column{Name: name, Values: v})
@@ -114,24 +185,50 @@ func planRun(r *roi.Run, o Options) (*RunPlan, error) {
 			motion = DefaultMotion
 		}
 	}
-	if spec.Motion, err = pick(motion, true); err != nil {
+	if spec.Motion, err = pick(motion); err != nil {
 		return nil, err
 	}
-	if spec.Confound, err = pick(o.Confounds, true); err != nil {
+	if spec.Confound, err = pick(o.Confounds); err != nil {
 		return nil, err
+	}
+	if len(spec.Motion) == 6 {
+		m := make([][]float64, 6)
+		for i, c := range spec.Motion {
+			m[i] = c.Values
+		}
+		p.FD = FramewiseDisplacement(m, o.RotationDegrees)
+		if o.CensorFD > 0 {
+			spec.Censor = make([]bool, n)
+			for t, fd := range p.FD {
+				spec.Censor[t] = fd > o.CensorFD
+			}
+		}
+	} else if o.CensorFD > 0 {
+		return nil, fmt.Errorf("run %s: --censor-fd needs the six motion columns, and the run has none (give --motion or a confounds table with tx,ty,tz,rx,ry,rz)", key)
 	}
 	d, err := BuildDesign(spec)
 	if err != nil {
-		return nil, fmt.Errorf("run %s: %v", r.Spec.Key(), err)
+		if r.Spec.Events != "" {
+			return nil, fmt.Errorf("run %s (%s): %v", key, r.Spec.Events, err)
+		}
+		return nil, fmt.Errorf("run %s: %v", key, err)
 	}
 	p.Design = d
+	for _, w := range d.Warnings {
+		p.Warnings = append(p.Warnings, fmt.Sprintf("run %s: %s", key, w))
+	}
+	th := o.Audit
+	if th == (AuditThresholds{}) {
+		th = DefaultAuditThresholds
+	}
+	p.Warnings = append(p.Warnings, EventWarnings(key, spec.Events, tr, n, skip, d.Censored, th.MinEvents)...)
 	rows, k := d.X.Dims()
 	if rows <= k {
-		p.Warnings = append(p.Warnings, fmt.Sprintf("run %s has %d volumes for %d terms and is skipped", r.Spec.Key(), rows, k))
+		p.Warnings = append(p.Warnings, fmt.Sprintf("run %s has %d volumes for %d terms and is skipped", key, rows, k))
 		p.Condition = math.Inf(1)
 		return p, nil
 	}
-	cond, err := CheckDesign(r.Spec.Key(), d)
+	cond, err := CheckDesign(key, d)
 	if err != nil {
 		return nil, err
 	}
@@ -167,8 +264,35 @@ func DefaultContrasts(plans []*RunPlan) []Contrast {
 	return cs
 }
 
-func checkContrasts(plans []*RunPlan, cs []Contrast) error {
-	known := Conditions(plans)
+// KnownNames returns every name a contrast may use: conditions and the
+// names of condition-related terms (derivatives, modulators, FIR bins).
+func KnownNames(plans []*RunPlan) []string {
+	set := map[string]bool{}
+	for _, c := range Conditions(plans) {
+		set[c] = true
+	}
+	for _, p := range plans {
+		for _, t := range p.Design.Terms {
+			if t.Kind <= TermFIR {
+				set[t.Name] = true
+			}
+		}
+	}
+	var out []string
+	for n := range set {
+		out = append(out, n)
+	}
+	sort.Strings(out)
+	return out
+}
+
+func checkContrasts(plans []*RunPlan, cs []Contrast, fts []FTest) error {
+	known := KnownNames(plans)
+	for _, f := range fts {
+		if err := f.Check(known); err != nil {
+			return err
+		}
+	}
 	seen := map[string]bool{}
 	for _, c := range cs {
 		if seen[c.Name] {
@@ -191,7 +315,12 @@ type RunResult struct {
 	Contrasts [][]ContrastFit
 	Valid     []bool
 	// Q[c][r] is the BH q value across the regions of this run.
-	Q        [][]float64
+	Q [][]float64
+	// FTests[f][r] is F test f in region r, FValid[f] false when the run
+	// lacks a name the test needs; FQ[f][r] its BH q value.
+	FTests   [][]FTestFit
+	FValid   []bool
+	FQ       [][]float64
 	Warnings []string
 }
 
@@ -210,7 +339,11 @@ type StudyResult struct {
 	Runs      []*RunResult
 	Subjects  []SubjectResult
 	Contrasts []Contrast
-	Warnings  []string
+	// FTests are the F tests: those given, then one per condition when the
+	// model has derivatives or FIR bins (Rows empty: all of the
+	// condition's terms).
+	FTests   []FTest
+	Warnings []string
 }
 
 // FitStudy fits every planned run (in parallel over o.Jobs workers; results
@@ -221,7 +354,13 @@ func FitStudy(plans []*RunPlan, o Options) (*StudyResult, error) {
 	if len(cs) == 0 {
 		cs = DefaultContrasts(plans)
 	}
-	res := &StudyResult{Options: o, Contrasts: cs, Runs: make([]*RunResult, len(plans))}
+	fts := append([]FTest(nil), o.FTests...)
+	if len(o.Derivatives) > 0 || o.HRF == HRFFIR {
+		for _, c := range Conditions(plans) {
+			fts = append(fts, FTest{Name: c})
+		}
+	}
+	res := &StudyResult{Options: o, Contrasts: cs, FTests: fts, Runs: make([]*RunResult, len(plans))}
 	jobs := o.Jobs
 	if jobs < 1 {
 		jobs = runtime.NumCPU()
@@ -234,7 +373,7 @@ func FitStudy(plans []*RunPlan, o Options) (*StudyResult, error) {
 		go func() {
 			defer wg.Done()
 			for i := range next {
-				res.Runs[i], errs[i] = fitPlanned(plans[i], cs, o.Noise)
+				res.Runs[i], errs[i] = fitPlanned(plans[i], cs, fts, o.Noise)
 			}
 		}()
 	}
@@ -259,13 +398,12 @@ func FitStudy(plans []*RunPlan, o Options) (*StudyResult, error) {
 	return res, nil
 }
 
-func fitPlanned(p *RunPlan, cs []Contrast, noise NoiseModel) (*RunResult, error) {
+func fitPlanned(p *RunPlan, cs []Contrast, fts []FTest, noise NoiseModel) (*RunResult, error) {
 	rr := &RunResult{Plan: p}
 	if p.Skipped() {
 		return rr, nil
 	}
-	sig := p.Run.Signals
-	f, err := FitRun(p.Design, sig.Names, sig.Cols, noise)
+	f, err := FitRun(p.Design, p.Regions, p.Y, noise)
 	if err != nil {
 		return nil, fmt.Errorf("run %s: %v", p.Run.Spec.Key(), err)
 	}
@@ -309,6 +447,38 @@ func fitPlanned(p *RunPlan, cs []Contrast, noise NoiseModel) (*RunResult, error)
 			}
 		}
 		rr.Q[ci] = BenjaminiHochberg(pv)
+	}
+	rr.FTests = make([][]FTestFit, len(fts))
+	rr.FValid = make([]bool, len(fts))
+	rr.FQ = make([][]float64, len(fts))
+	for fi, ft := range fts {
+		var c [][]float64
+		var ok bool
+		if len(ft.Rows) == 0 {
+			c, ok = ConditionFTest(p.Design, ft.Name)
+		} else {
+			c, ok = ft.Matrix(p.Design)
+		}
+		if !ok {
+			rr.Warnings = append(rr.Warnings, fmt.Sprintf("run %s: F test %q is not computed because the run lacks one of its terms", p.Run.Spec.Key(), ft.Name))
+			continue
+		}
+		rr.FValid[fi] = true
+		rr.FTests[fi] = make([]FTestFit, len(f.Regions))
+		pv := make([]float64, len(f.Regions))
+		for ri := range f.Regions {
+			pv[ri] = math.NaN()
+			if f.Regions[ri].Skip != "" {
+				continue
+			}
+			r, err := f.Regions[ri].FTest(c)
+			if err != nil {
+				return nil, fmt.Errorf("run %s: F test %q: %v", p.Run.Spec.Key(), ft.Name, err)
+			}
+			rr.FTests[fi][ri] = r
+			pv[ri] = r.PValue
+		}
+		rr.FQ[fi] = BenjaminiHochberg(pv)
 	}
 	return rr, nil
 }
@@ -388,4 +558,13 @@ func combineSubjects(runs []*RunResult, cs []Contrast) []SubjectResult {
 		}
 	}
 	return out
+}
+
+func columnIndex(names []string, name string) int {
+	for i, n := range names {
+		if n == name {
+			return i
+		}
+	}
+	return -1
 }

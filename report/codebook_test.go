@@ -52,6 +52,11 @@ func TestTablesMatchContract(t *testing.T) {
 		"contrasts.csv":         "subject,session,run,region,contrast,estimate,std_error,statistic,df,p_value,q_value,psc",
 		"subject_contrasts.csv": "subject,region,contrast,runs,estimate,std_error,statistic,df,p_value,q_value,psc",
 		"diagnostics.csv":       "subject,session,run,region,volumes,censored,df,sigma,r_squared,noise,ar_order,ar_coefficients,durbin_watson,ljung_box_p,normality_p,tsnr",
+		// "Added with the design issue".
+		"motion.csv":    "subject,session,run,volume,fd,censored",
+		"audit.csv":     "subject,session,run,item,measure,value,flag",
+		"ftests.csv":    "subject,session,run,region,test,statistic,df_num,df_den,p_value,q_value",
+		"responses.csv": "subject,session,run,region,condition,time,estimate,std_error,psc",
 	}
 	for _, tab := range Tables {
 		if got := strings.Join(tab.Header(), ","); got != want[tab.File] {

@@ -91,7 +91,7 @@ var (
 )
 
 // Tables lists every table a first-level fit writes, in codebook order.
-var Tables = []TableDef{Estimates, Contrasts, SubjectContrasts, Diagnostics}
+var Tables = []TableDef{Estimates, Contrasts, SubjectContrasts, Diagnostics, Motion, AuditTable, FTests, Responses}
 
 // CodebookMarkdown renders the output codebook: one section per table with
 // every column's meaning and unit.

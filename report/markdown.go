@@ -134,6 +134,7 @@ func Markdown(res *fit.StudyResult, info ReportInfo) string {
 			len(d.Terms), count[fit.TermDrift], count[fit.TermMotion], count[fit.TermConfound], strings.Join(ce, ", "), cond)
 	}
 	p("\nThe condition number is that of the design with every column scaled to unit length; designs above %.0g are refused.\n\n", fit.ConditionNumberLimit)
+	writeAudit(p, res)
 
 	p("## Results\n\n")
 	p("Tables rank regions by |t| and show the strongest %d rows; every row is in `subject_contrasts.csv` (subject level) and `contrasts.csv` (run level). `psc` is in percent of the region's mean signal; `q` is the Benjamini-Hochberg adjusted p across regions (within one subject, or one run).\n\n", topRows)
@@ -186,6 +187,7 @@ func Markdown(res *fit.StudyResult, info ReportInfo) string {
 		p("\n")
 	}
 
+	writeFTests(p, res)
 	p("## Diagnostics\n\n")
 	var auto, nonNormal, lowSNR []string
 	fitted := 0
@@ -281,4 +283,91 @@ func planList(res *fit.StudyResult) []*fit.RunPlan {
 		ps[i] = r.Plan
 	}
 	return ps
+}
+
+// writeAudit renders the design audit: per run the condition number, the
+// largest correlation between conditions, the highest VIF, the lowest
+// relative efficiency and the censored share, then the audit's warnings.
+func writeAudit(p func(string, ...any), res *fit.StudyResult) {
+	p("### Design audit\n\n")
+	p("Every value is in `audit.csv`. VIF above %g or a correlation beyond %g between two conditions means their separate estimates are unstable.\n\n", res.Options.Audit.VIF, res.Options.Audit.Correlation)
+	p("| run | largest correlation | highest VIF | lowest relative efficiency | censored |\n| --- | --- | --- | --- | --- |\n")
+	var warns []string
+	for _, r := range res.Runs {
+		corr, vif, eff, cens := "", "", "", ""
+		maxVIF, minEff := 0.0, math.Inf(1)
+		vifItem, effItem := "", ""
+		for _, a := range r.Plan.Audit {
+			switch a.Measure {
+			case "max_correlation":
+				corr = fmt.Sprintf("%s: %.2f %s", a.Item, a.Value, a.Flag)
+			case "vif":
+				if a.Value > maxVIF {
+					maxVIF, vifItem = a.Value, a.Item
+				}
+			case "relative_efficiency":
+				if a.Value < minEff {
+					minEff, effItem = a.Value, a.Item
+				}
+			case "censored_share":
+				cens = fmt.Sprintf("%.1f%% %s", 100*a.Value, a.Flag)
+			}
+		}
+		if vifItem != "" {
+			vif = fmt.Sprintf("%s: %.2f", vifItem, maxVIF)
+		}
+		if effItem != "" {
+			eff = fmt.Sprintf("%s: %.2f", effItem, minEff)
+		}
+		p("| %s | %s | %s | %s | %s |\n", r.Plan.Run.Spec.Key(), corr, vif, eff, cens)
+		for _, w := range r.Plan.Warnings {
+			if strings.Contains(w, "correlate at") || strings.Contains(w, "variance inflation") || strings.Contains(w, "censored (more than") {
+				warns = append(warns, w)
+			}
+		}
+	}
+	p("\n")
+	if len(warns) > 0 {
+		p("Audit warnings:\n\n")
+		for _, w := range warns {
+			p("- %s\n", w)
+		}
+		p("\n")
+	}
+}
+
+// writeFTests renders the strongest regions of each F test.
+func writeFTests(p func(string, ...any), res *fit.StudyResult) {
+	if len(res.FTests) == 0 {
+		return
+	}
+	p("### F tests\n\n")
+	p("Each F test asks whether any of its rows differs from zero; a condition's own test (models with derivatives or FIR bins) asks whether the region responds at all, whatever the shape. Every row is in `ftests.csv`.\n\n")
+	for fi, t := range res.FTests {
+		type row struct {
+			run, region string
+			f           fit.FTestFit
+			q           float64
+		}
+		var rows []row
+		for _, r := range res.Runs {
+			if r.Fit == nil || !r.FValid[fi] {
+				continue
+			}
+			for ri, reg := range r.Fit.Regions {
+				if reg.Skip == "" {
+					rows = append(rows, row{r.Plan.Run.Spec.Key(), reg.Region, r.FTests[fi][ri], r.FQ[fi][ri]})
+				}
+			}
+		}
+		sort.SliceStable(rows, func(i, j int) bool { return rows[i].f.PValue < rows[j].f.PValue })
+		p("`%s`:\n\n| run | region | F | df | p | q |\n| --- | --- | --- | --- | --- | --- |\n", t.Name)
+		for i, x := range rows {
+			if i == topRows {
+				break
+			}
+			p("| %s | %s | %.2f | %d, %d | %s | %s |\n", x.run, x.region, x.f.Statistic, x.f.DFNum, x.f.DFDen, FormatQ(x.f.PValue), FormatQ(x.q))
+		}
+		p("\n")
+	}
 }

@@ -68,21 +68,21 @@ func WriteTables(out *Output, res *fit.StudyResult) error {
 		if err := writeDesign(out, s.Key(), d); err != nil {
 			return err
 		}
-		n := rr.Plan.Run.Signals.Rows()
+		n := len(rr.Plan.Y[0])
 		if rr.Fit == nil {
-			for _, name := range rr.Plan.Run.Signals.Names {
+			for _, name := range rr.Plan.Regions {
 				diag.row(s.Subject, s.Session, s.Run, name, strconv.Itoa(n), "0", "", "", "", "skipped:too few volumes", "", "", "", "", "", "")
 			}
 			continue
 		}
 		for _, reg := range rr.Fit.Regions {
 			if reg.Skip != "" {
-				diag.row(s.Subject, s.Session, s.Run, reg.Region, strconv.Itoa(n), "0", "", "", "", "skipped:"+reg.Skip, "", "", "", "", "", "")
+				diag.row(s.Subject, s.Session, s.Run, reg.Region, strconv.Itoa(n), strconv.Itoa(d.CensoredCount()), "", "", "", "skipped:"+reg.Skip, "", "", "", "", "", "")
 				continue
 			}
 			for j, term := range d.Terms {
 				psc := ""
-				if term.Kind == fit.TermCondition {
+				if term.Kind == fit.TermCondition || term.Kind == fit.TermFIR {
 					psc = Num(100 * reg.Beta[j] / reg.Baseline)
 				}
 				t := reg.Beta[j] / reg.StdError[j]
@@ -94,7 +94,7 @@ func WriteTables(out *Output, res *fit.StudyResult) error {
 			for i, a := range reg.AR {
 				coefs[i] = Num(a)
 			}
-			diag.row(s.Subject, s.Session, s.Run, reg.Region, strconv.Itoa(n), "0", strconv.Itoa(reg.DF),
+			diag.row(s.Subject, s.Session, s.Run, reg.Region, strconv.Itoa(n), strconv.Itoa(d.CensoredCount()), strconv.Itoa(reg.DF),
 				Num(reg.Sigma), Num(reg.RSquared), rr.Fit.Noise.Name, strconv.Itoa(rr.Fit.Noise.Order),
 				strings.Join(coefs, " "), Num(reg.DurbinWatson), Num(reg.LjungBoxP), Num(reg.NormalityP),
 				Num(reg.Baseline/reg.Sigma))
@@ -126,7 +126,7 @@ func WriteTables(out *Output, res *fit.StudyResult) error {
 			return err
 		}
 	}
-	return nil
+	return WriteDesignTables(out, res)
 }
 
 func writeDesign(out *Output, key string, d *fit.Design) error {

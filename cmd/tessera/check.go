@@ -65,8 +65,18 @@ func runCheck(args []string, stdout, stderr io.Writer) error {
 		warnings = append(warnings, p.Run.Warnings...)
 		warnings = append(warnings, p.Warnings...)
 	}
-	for _, w := range warnings {
-		fmt.Fprintf(stderr, "warning: %s\n", w)
+	fmt.Fprintf(stdout, "\ndesign audit (flag: beyond --vif-max, --correlation-max or --censor-max-share)\n")
+	fmt.Fprintf(stdout, "%-16s %-28s %-20s %12s  %s\n", "run", "item", "measure", "value", "flag")
+	for _, p := range plans {
+		for _, a := range p.Audit {
+			fmt.Fprintf(stdout, "%-16s %-28s %-20s %12.4g  %s\n", p.Run.Spec.Key(), a.Item, a.Measure, a.Value, a.Flag)
+		}
+	}
+	if len(warnings) > 0 {
+		fmt.Fprintf(stdout, "\nwarnings:\n")
+		for _, w := range warnings {
+			fmt.Fprintf(stdout, "- %s\n", w)
+		}
 	}
 	fmt.Fprintf(stdout, "\nevery design can be fitted (condition numbers of the unit-scaled designs, limit %.0g)\n", fit.ConditionNumberLimit)
 	return nil

@@ -82,7 +82,7 @@ func runDemo(args []string, stdout, stderr io.Writer) error {
 	if err := parseFlags(ffs, fitArgs); err != nil {
 		return err
 	}
-	res, err := fitStudy(ffs, m, ffs.Args(), resultsDir, "tessera fit "+joinArgs(fitArgs))
+	res, err := fitStudy(ffs, m, ffs.Args(), resultsDir, append([]string{"tessera", "fit"}, fitArgs...))
 	if err != nil {
 		return err
 	}
@@ -91,29 +91,4 @@ func runDemo(args []string, stdout, stderr io.Writer) error {
 		fmt.Fprintf(stderr, "warning: %s\n", w)
 	}
 	return nil
-}
-
-func joinArgs(a []string) string {
-	s := ""
-	for i, x := range a {
-		if i > 0 {
-			s += " "
-		}
-		if len(x) > 0 && (containsAny(x, " *'")) {
-			x = "'" + x + "'"
-		}
-		s += x
-	}
-	return s
-}
-
-func containsAny(s, chars string) bool {
-	for _, c := range chars {
-		for _, d := range s {
-			if c == d {
-				return true
-			}
-		}
-	}
-	return false
 }

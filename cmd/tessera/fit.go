@@ -41,7 +41,7 @@ func runFit(args []string, stdout, stderr io.Writer) error {
 	if *out == "" {
 		return usagef("-o DIR is required: the folder for the results")
 	}
-	res, err := fitStudy(fs, m, fs.Args(), *out, "tessera "+strings.Join(append([]string{"fit"}, args...), " "))
+	res, err := fitStudy(fs, m, fs.Args(), *out, append([]string{"tessera", "fit"}, args...))
 	if err != nil {
 		return err
 	}
@@ -53,7 +53,9 @@ func runFit(args []string, stdout, stderr io.Writer) error {
 }
 
 // fitStudy reads, plans, fits and writes one study into outDir.
-func fitStudy(fs *flag.FlagSet, m *modelFlags, args []string, outDir, command string) (*fit.StudyResult, error) {
+// command is the full command line that asked for the fit, recorded in
+// provenance.json and quoted in report.md.
+func fitStudy(fs *flag.FlagSet, m *modelFlags, args []string, outDir string, command []string) (*fit.StudyResult, error) {
 	tm := newTimer()
 	o, err := m.options()
 	if err != nil {
@@ -76,7 +78,16 @@ func fitStudy(fs *flag.FlagSet, m *modelFlags, args []string, outDir, command st
 		return nil, err
 	}
 	tm.mark("fit")
-	prov := &report.Provenance{Program: "tessera", Version: version, Command: os.Args, Options: map[string]string{}, Timings: tm.marks}
+	fitted := 0
+	for _, p := range plans {
+		if !p.Skipped() {
+			fitted++
+		}
+	}
+	if fitted == 0 {
+		return nil, fmt.Errorf("no run can be fitted: every run has fewer volumes than its design has terms (%s)", strings.Join(plans[0].Warnings, "; "))
+	}
+	prov := &report.Provenance{Program: "tessera", Version: version, Command: command, Options: map[string]string{}, Timings: tm.marks}
 	fs.VisitAll(func(f *flag.Flag) { prov.Options[f.Name] = f.Value.String() })
 	for _, in := range l.inputs {
 		h, err := report.HashFile(in)
@@ -95,7 +106,7 @@ func fitStudy(fs *flag.FlagSet, m *modelFlags, args []string, outDir, command st
 		outp.Abort()
 		return nil, err
 	}
-	if err := report.WriteMarkdown(outp, res, report.ReportInfo{Study: l.source, Command: command, Outputs: files}); err != nil {
+	if err := report.WriteMarkdown(outp, res, report.ReportInfo{Study: l.source, Command: quoteArgs(command), Outputs: files}); err != nil {
 		outp.Abort()
 		return nil, err
 	}
@@ -141,4 +152,17 @@ func printSummary(w io.Writer, res *fit.StudyResult, outDir string) {
 
 func joinPath(dir, file string) string {
 	return strings.TrimSuffix(dir, string(os.PathSeparator)) + string(os.PathSeparator) + file
+}
+
+// quoteArgs joins a command line for reading, quoting arguments that hold
+// spaces or shell characters.
+func quoteArgs(a []string) string {
+	out := make([]string, len(a))
+	for i, x := range a {
+		if x == "" || strings.ContainsAny(x, " *'\"$;&|<>()") {
+			x = "'" + strings.ReplaceAll(x, "'", `'\''`) + "'"
+		}
+		out[i] = x
+	}
+	return strings.Join(out, " ")
 }

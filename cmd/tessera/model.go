@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"path/filepath"
 	"runtime"
+	"strconv"
 	"strings"
 	"time"
 
@@ -27,6 +28,21 @@ type modelFlags struct {
 	motion    []string
 	confounds []string
 	jobs      int
+	// design options
+	derivatives    []string
+	firWindow      float64
+	firBins        int
+	modulate       []string
+	motionTerms    int
+	censorFD       float64
+	censorMaxShare float64
+	rotationUnit   string
+	skipVolumes    int
+	ftests         []string
+	drift          string
+	vifMax         float64
+	corrMax        float64
+	minEvents      int
 	// single-run form
 	signals, events, confoundsFile string
 }
@@ -41,6 +57,20 @@ func (m *modelFlags) register(fs *flag.FlagSet) {
 	fs.StringSliceVar(&m.motion, "motion", nil, "the six motion columns of the confounds table (default tx,ty,tz,rx,ry,rz where all exist)")
 	fs.StringSliceVar(&m.confounds, "confounds", nil, "further confound columns to model, comma-separated")
 	fs.IntVar(&m.jobs, "jobs", runtime.NumCPU(), "runs fitted in parallel")
+	fs.StringSliceVar(&m.derivatives, "hrf-derivatives", nil, "add response derivatives: time, or time,dispersion (orthogonalised to each condition's main term)")
+	fs.Float64Var(&m.firWindow, "fir-window", 0, "with --hrf fir: seconds after onset that the bins cover")
+	fs.IntVar(&m.firBins, "fir-bins", 0, "with --hrf fir: number of bins")
+	fs.StringArrayVar(&m.modulate, "modulate", nil, "parametric modulator CONDITION=COLUMN from an events column (repeatable)")
+	fs.IntVar(&m.motionTerms, "motion-terms", 6, "motion terms: 6 (as given), 12 (plus backward differences), 24 (plus the squares of both)")
+	fs.Float64Var(&m.censorFD, "censor-fd", 0, "censor volumes whose framewise displacement exceeds this many mm (one indicator term each); 0 for none")
+	fs.Float64Var(&m.censorMaxShare, "censor-max-share", fit.DefaultAuditThresholds.CensoredShare, "flag runs with more than this share of volumes censored")
+	fs.StringVar(&m.rotationUnit, "rotation-unit", "rad", "unit of the rotation columns, rad or deg (framewise displacement only)")
+	fs.IntVar(&m.skipVolumes, "skip-volumes", 0, "drop the first N volumes of every run; onsets stay relative to the original first volume")
+	fs.StringArrayVar(&m.ftests, "ftest", nil, "F test 'NAME = EXPR; EXPR; ...' of several contrast rows at once (repeatable)")
+	fs.StringVar(&m.drift, "drift", "cosine", "drift terms: cosine (cut-off from --highpass) or poly:K (Legendre polynomials to order K)")
+	fs.Float64Var(&m.vifMax, "vif-max", fit.DefaultAuditThresholds.VIF, "design audit: flag condition terms with a variance inflation factor above this")
+	fs.Float64Var(&m.corrMax, "correlation-max", fit.DefaultAuditThresholds.Correlation, "design audit: flag pairs of conditions correlating beyond this")
+	fs.IntVar(&m.minEvents, "min-events", fit.DefaultAuditThresholds.MinEvents, "warn when a condition has fewer events than this in a run")
 	fs.StringVarP(&m.signals, "signals", "s", "", "single-run form: the signals table")
 	fs.StringVarP(&m.events, "events", "e", "", "single-run form: the events table")
 	fs.StringVarP(&m.confoundsFile, "confounds-file", "c", "", "single-run form: the confounds table")
@@ -53,9 +83,81 @@ func (m *modelFlags) options() (fit.Options, error) {
 	if o.Noise, err = fit.ParseNoise(m.noise); err != nil {
 		return o, usagef("%v", err)
 	}
-	if m.hrf != fit.HRFDoubleGamma {
-		return o, usagef("--hrf %q: expected %s", m.hrf, fit.HRFDoubleGamma)
+	switch m.hrf {
+	case fit.HRFDoubleGamma, fit.HRFGamma:
+		if m.firWindow != 0 || m.firBins != 0 {
+			return o, usagef("--fir-window and --fir-bins go with --hrf fir")
+		}
+	case fit.HRFFIR:
+		if m.firWindow <= 0 || m.firBins < 1 {
+			return o, usagef("--hrf fir needs --fir-window S (seconds, > 0) and --fir-bins N (>= 1)")
+		}
+		if len(m.derivatives) > 0 || len(m.modulate) > 0 {
+			return o, usagef("--hrf fir does not combine with --hrf-derivatives or --modulate")
+		}
+	default:
+		return o, usagef("--hrf %q: expected %s, %s or %s", m.hrf, fit.HRFDoubleGamma, fit.HRFGamma, fit.HRFFIR)
 	}
+	o.FIRWindow, o.FIRBins = m.firWindow, m.firBins
+	switch strings.Join(m.derivatives, ",") {
+	case "":
+	case fit.DerivativeTime, fit.DerivativeTime + "," + fit.DerivativeDispersion:
+		if m.hrf != fit.HRFDoubleGamma {
+			return o, usagef("--hrf-derivatives go with --hrf %s", fit.HRFDoubleGamma)
+		}
+		o.Derivatives = m.derivatives
+	default:
+		return o, usagef("--hrf-derivatives %q: expected time or time,dispersion", strings.Join(m.derivatives, ","))
+	}
+	for _, s := range m.modulate {
+		c, col, ok := strings.Cut(s, "=")
+		c, col = strings.TrimSpace(c), strings.TrimSpace(col)
+		if !ok || c == "" || col == "" {
+			return o, usagef("--modulate %q: expected CONDITION=COLUMN", s)
+		}
+		o.Modulate = append(o.Modulate, fit.Modulator{Condition: c, Column: col})
+	}
+	if m.motionTerms != 6 && m.motionTerms != 12 && m.motionTerms != 24 {
+		return o, usagef("--motion-terms %d: expected 6, 12 or 24", m.motionTerms)
+	}
+	o.MotionTerms = m.motionTerms
+	if m.censorFD < 0 {
+		return o, usagef("--censor-fd %g: expected mm >= 0", m.censorFD)
+	}
+	o.CensorFD = m.censorFD
+	switch m.rotationUnit {
+	case "rad":
+	case "deg":
+		o.RotationDegrees = true
+	default:
+		return o, usagef("--rotation-unit %q: expected rad or deg", m.rotationUnit)
+	}
+	if m.skipVolumes < 0 {
+		return o, usagef("--skip-volumes %d: expected a count >= 0", m.skipVolumes)
+	}
+	o.SkipVolumes = m.skipVolumes
+	switch {
+	case m.drift == "cosine":
+	case strings.HasPrefix(m.drift, "poly:"):
+		k, err := strconv.Atoi(m.drift[5:])
+		if err != nil || k < 1 || k > 10 {
+			return o, usagef("--drift %q: expected poly:K with K from 1 to 10", m.drift)
+		}
+		o.Poly = k
+	default:
+		return o, usagef("--drift %q: expected cosine or poly:K", m.drift)
+	}
+	for _, s := range m.ftests {
+		f, err := fit.ParseFTest(s)
+		if err != nil {
+			return o, usagef("%v", err)
+		}
+		o.FTests = append(o.FTests, f)
+	}
+	if m.censorMaxShare <= 0 || m.censorMaxShare > 1 || m.vifMax <= 1 || m.corrMax <= 0 || m.corrMax >= 1 || m.minEvents < 0 {
+		return o, usagef("audit thresholds: --censor-max-share in (0, 1], --vif-max > 1, --correlation-max in (0, 1), --min-events >= 0")
+	}
+	o.Audit = fit.AuditThresholds{VIF: m.vifMax, Correlation: m.corrMax, CensoredShare: m.censorMaxShare, MinEvents: m.minEvents}
 	if m.sliceRef < 0 || m.sliceRef >= 1 {
 		return o, usagef("--slice-ref %g: expected a fraction of TR from 0 to below 1", m.sliceRef)
 	}
@@ -64,6 +166,12 @@ func (m *modelFlags) options() (fit.Options, error) {
 	}
 	if m.tr < 0 {
 		return o, usagef("--tr %g: expected seconds > 0", m.tr)
+	}
+	if m.tr > 20 {
+		return o, usagef("--tr %g: that looks like milliseconds; --tr is in seconds (e.g. --tr %g)", m.tr, m.tr/1000)
+	}
+	if m.jobs < 1 {
+		return o, usagef("--jobs %d: expected at least 1 worker", m.jobs)
 	}
 	if m.motion != nil {
 		if len(m.motion) != 6 {
@@ -122,6 +230,11 @@ func (m *modelFlags) load(args []string) (*loaded, error) {
 		return nil, usagef("expected one study table, found %d arguments: %s", len(args), strings.Join(args, " "))
 	}
 	for _, s := range specs {
+		if m.tr > 0 {
+			// --tr overrides the study table before the run is read, so the
+			// checks of event timing against the run's end use it too.
+			s.TR = m.tr
+		}
 		r, err := roi.LoadRun(s, roi.LoadOptions{})
 		if err != nil {
 			return nil, err

@@ -1,0 +1,56 @@
+package fit
+
+import (
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat/distuv"
+)
+
+// FTestFit is an F test of q contrast rows in one region and run.
+type FTestFit struct {
+	Statistic, PValue float64
+	DFNum, DFDen      int
+}
+
+// FTest returns the Wald F test of H0: Cβ = 0,
+//
+//	F = (Cβ)' (C Cov(β) C')^-1 (Cβ) / q,   q = rank(C),
+//
+// with Cov(β) = σ̂² (X̃'X̃)^-1 of the (whitened) fit, referred to the F
+// distribution with q and the residual degrees of freedom. For OLS this is
+// the extra-sum-of-squares F of nested models (as R's anova() of two lm()
+// fits gives it); with a noise model it is the same test on the whitened
+// data. Rows of C must be linearly independent.
+func (f *RegionFit) FTest(c [][]float64) (FTestFit, error) {
+	q := len(c)
+	k := len(f.Beta)
+	cm := mat.NewDense(q, k, nil)
+	for i, r := range c {
+		cm.SetRow(i, r)
+	}
+	var cb mat.VecDense
+	cb.MulVec(cm, mat.NewVecDense(k, f.Beta))
+	var ccc mat.Dense
+	ccc.Mul(cm, f.Cov)
+	var m mat.Dense
+	m.Mul(&ccc, cm.T())
+	sym := mat.NewSymDense(q, nil)
+	for i := 0; i < q; i++ {
+		for j := i; j < q; j++ {
+			sym.SetSym(i, j, 0.5*(m.At(i, j)+m.At(j, i)))
+		}
+	}
+	var ch mat.Cholesky
+	if !ch.Factorize(sym) {
+		return FTestFit{}, fmt.Errorf("the F test's rows are linearly dependent; remove the redundant rows")
+	}
+	var sol mat.VecDense
+	if err := ch.SolveVecTo(&sol, &cb); err != nil {
+		return FTestFit{}, err
+	}
+	stat := mat.Dot(&cb, &sol) / float64(q)
+	p := distuv.F{D1: float64(q), D2: float64(f.DF)}.Survival(stat)
+	return FTestFit{Statistic: stat, PValue: math.Max(0, p), DFNum: q, DFDen: f.DF}, nil
+}

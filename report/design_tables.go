@@ -1,0 +1,142 @@
+package report
+
+import (
+	"strconv"
+
+	"github.com/tessera-fmri/tessera/fit"
+)
+
+// Tables added with the design features, columns in contract order.
+var (
+	Motion = TableDef{"motion.csv", "subject, session, run, volume (written when runs have motion columns)", []ColumnDef{
+		colSubject, colSession, colRun,
+		{"volume", "volume, counted from 0 among the kept volumes (after --skip-volumes)", ""},
+		{"fd", "framewise displacement (Power et al. 2012): sum of absolute backward differences of the six motion parameters, rotations as arc length on a 50 mm sphere; 0 for the first volume", "mm"},
+		{"censored", "1 when the volume is censored (--censor-fd), else 0", ""},
+	}}
+	AuditTable = TableDef{"audit.csv", "subject, session, run, item, measure", []ColumnDef{
+		colSubject, colSession, colRun,
+		{"item", "what is measured: a term, a contrast, `A vs B` (a pair of conditions), `design` or `run`", ""},
+		{"measure", "vif (variance inflation factor of a condition term), max_correlation (largest correlation between two conditions' main terms), condition_number (of the unit-scaled design), efficiency (1 / c'(X'X)^-1 c of a contrast), relative_efficiency (efficiency / the best run's), censored_share (share of volumes censored)", ""},
+		{"value", "the measure's value", ""},
+		{"flag", "empty, or `high` when the value is beyond its threshold (--vif-max, --correlation-max, --censor-max-share)", ""},
+	}}
+	FTests = TableDef{"ftests.csv", "subject, session, run, region, test (written when there are F tests)", []ColumnDef{
+		colSubject, colSession, colRun, colRegion,
+		{"test", "F test name (--ftest NAME = ...; or a condition, testing all its terms, in models with derivatives or FIR bins)", ""},
+		{"statistic", "F = (Cβ)'(C Cov(β) C')^-1 (Cβ) / q", ""},
+		{"df_num", "q, the number of rows tested", ""},
+		{"df_den", "residual degrees of freedom", ""},
+		{"p_value", "upper tail of the F distribution", ""},
+		{"q_value", "Benjamini-Hochberg adjusted p across the regions of this run and test", ""},
+	}}
+	Responses = TableDef{"responses.csv", "subject, session, run, region, condition, time (written with --hrf fir)", []ColumnDef{
+		colSubject, colSession, colRun, colRegion,
+		{"condition", "condition name", ""},
+		{"time", "centre of the FIR bin, after onset", "seconds"},
+		{"estimate", "the bin's estimate: the response at that time after onset", "signal units"},
+		{"std_error", "standard error of the estimate", "signal units"},
+		{"psc", "100 * estimate / baseline", "percent of baseline"},
+	}}
+)
+
+// WriteDesignTables writes audit.csv, and motion.csv, ftests.csv and
+// responses.csv where they apply.
+func WriteDesignTables(out *Output, res *fit.StudyResult) error {
+	aud, err := newTable(out, AuditTable)
+	if err != nil {
+		return err
+	}
+	for _, rr := range res.Runs {
+		s := rr.Plan.Run.Spec
+		for _, a := range rr.Plan.Audit {
+			aud.row(s.Subject, s.Session, s.Run, a.Item, a.Measure, Num(a.Value), a.Flag)
+		}
+	}
+	if err := aud.close(); err != nil {
+		return err
+	}
+	hasMotion, hasFIR := false, res.Options.HRF == fit.HRFFIR
+	for _, rr := range res.Runs {
+		if rr.Plan.FD != nil {
+			hasMotion = true
+		}
+	}
+	if hasMotion {
+		mt, err := newTable(out, Motion)
+		if err != nil {
+			return err
+		}
+		for _, rr := range res.Runs {
+			s := rr.Plan.Run.Spec
+			cens := rr.Plan.Design.Censored
+			for v, fd := range rr.Plan.FD {
+				c := "0"
+				if cens != nil && cens[v] {
+					c = "1"
+				}
+				mt.row(s.Subject, s.Session, s.Run, strconv.Itoa(v), Num(fd), c)
+			}
+		}
+		if err := mt.close(); err != nil {
+			return err
+		}
+	}
+	if len(res.FTests) > 0 {
+		ft, err := newTable(out, FTests)
+		if err != nil {
+			return err
+		}
+		for _, rr := range res.Runs {
+			if rr.Fit == nil {
+				continue
+			}
+			s := rr.Plan.Run.Spec
+			for fi, t := range res.FTests {
+				if !rr.FValid[fi] {
+					continue
+				}
+				for ri, reg := range rr.Fit.Regions {
+					if reg.Skip != "" {
+						continue
+					}
+					f := rr.FTests[fi][ri]
+					ft.row(s.Subject, s.Session, s.Run, reg.Region, t.Name, Num(f.Statistic), strconv.Itoa(f.DFNum),
+						strconv.Itoa(f.DFDen), Num(f.PValue), Num(rr.FQ[fi][ri]))
+				}
+			}
+		}
+		if err := ft.close(); err != nil {
+			return err
+		}
+	}
+	if hasFIR {
+		rt, err := newTable(out, Responses)
+		if err != nil {
+			return err
+		}
+		for _, rr := range res.Runs {
+			if rr.Fit == nil {
+				continue
+			}
+			s := rr.Plan.Run.Spec
+			d := rr.Plan.Design
+			for _, reg := range rr.Fit.Regions {
+				if reg.Skip != "" {
+					continue
+				}
+				for j, t := range d.Terms {
+					if t.Kind != fit.TermFIR {
+						continue
+					}
+					rt.row(s.Subject, s.Session, s.Run, reg.Region, t.Condition, Num(t.Time), Num(reg.Beta[j]),
+						Num(reg.StdError[j]), Num(100*reg.Beta[j]/reg.Baseline))
+				}
+			}
+		}
+		if err := rt.close(); err != nil {
+			return err
+		}
+	}
+	return nil
+}
