@@ -5,7 +5,7 @@ import (
 	"math"
 
 	"gonum.org/v1/gonum/mat"
-	"gonum.org/v1/gonum/stat/distuv"
+	"gonum.org/v1/gonum/mathext"
 )
 
 // FTestFit is an F test of q contrast rows in one region and run.
@@ -51,6 +51,22 @@ func (f *RegionFit) FTest(c [][]float64) (FTestFit, error) {
 		return FTestFit{}, err
 	}
 	stat := mat.Dot(&cb, &sol) / float64(q)
-	p := distuv.F{D1: float64(q), D2: float64(f.DF)}.Survival(stat)
-	return FTestFit{Statistic: stat, PValue: math.Max(0, p), DFNum: q, DFDen: f.DF}, nil
+	return FTestFit{Statistic: stat, PValue: FUpperTail(stat, float64(q), float64(f.DF)), DFNum: q, DFDen: f.DF}, nil
+}
+
+// FUpperTail returns P(F > f) for the F distribution with d1 and d2 degrees
+// of freedom, from the regularised incomplete beta function directly,
+//
+//	P(F > f) = I_x(d2/2, d1/2),  x = d2 / (d2 + d1 f)
+//
+// (Abramowitz and Stegun 1964, 26.6.2), so that small p values keep their
+// relative precision (1 - CDF would lose them).
+func FUpperTail(f, d1, d2 float64) float64 {
+	if math.IsNaN(f) || d1 <= 0 || d2 <= 0 {
+		return math.NaN()
+	}
+	if f <= 0 {
+		return 1
+	}
+	return mathext.RegIncBeta(d2/2, d1/2, d2/(d2+d1*f))
 }

@@ -1,5 +1,6 @@
 #!/usr/bin/env python3
-"""compare.py A B: compare every CSV in folder A with the file of the same name in folder B.
+"""compare.py A B: compare every CSV in folder A (subfolders included) with the file of the same
+relative path in folder B.
 
 Same header, same number of rows and cells; cells that parse as numbers in both files must agree
 to 1e-9 relative or 1e-12 absolute, other cells must be equal as text. A CSV present in only one
@@ -63,7 +64,13 @@ def compare_file(name, pa, pb):
 
 
 def csvs(folder):
-    return {f for f in os.listdir(folder) if f.endswith(".csv") and os.path.isfile(os.path.join(folder, f))}
+    """Every CSV under folder, subfolders included, as paths relative to it."""
+    out = set()
+    for root, _, files in os.walk(folder):
+        for f in files:
+            if f.endswith(".csv"):
+                out.add(os.path.relpath(os.path.join(root, f), folder))
+    return out
 
 
 def main(argv):

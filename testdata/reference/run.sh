@@ -19,4 +19,7 @@ $PY gls.py "$out"
 "$RS" ols.R "$out"
 "$RS" pt.R "$out"
 "$RS" bh.R "$out"
+# design/: VIF (car::vif), nested-model F tests (anova), Legendre polynomials (scipy)
+"$RS" design/design.R "$out/design"
+$PY design/legendre.py "$out/design"
 echo "reference outputs written to $out"
