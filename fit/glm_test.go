@@ -3,6 +3,7 @@ package fit_test
 import (
 	"math"
 	"math/rand/v2"
+	"slices"
 	"sort"
 	"testing"
 
@@ -104,18 +105,9 @@ func TestCheckDesignNamesColumns(t *testing.T) {
 	if !ok {
 		t.Fatalf("got %v, want a DesignError", err)
 	}
-	if len(de.Terms) < 2 || !(contains(de.Terms, "x") && contains(de.Terms, "y")) {
+	if len(de.Terms) < 2 || !(slices.Contains(de.Terms, "x") && slices.Contains(de.Terms, "y")) {
 		t.Errorf("named %v, want x and y", de.Terms)
 	}
-}
-
-func contains(s []string, v string) bool {
-	for _, x := range s {
-		if x == v {
-			return true
-		}
-	}
-	return false
 }
 
 // fitStudy fits every run of a simulated study with one noise model and

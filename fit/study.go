@@ -1,12 +1,15 @@
 package fit
 
 import (
+	"context"
 	"fmt"
 	"math"
 	"runtime"
+	"slices"
 	"sort"
 	"strings"
 	"sync"
+	"sync/atomic"
 
 	"github.com/tessera-fmri/tessera/roi"
 )
@@ -41,8 +44,16 @@ type Options struct {
 	// SkipVolumes drops the first volumes of every run; onsets stay
 	// relative to the original first volume.
 	SkipVolumes int
-	FTests      []FTest
-	Audit       AuditThresholds
+	// MissingCensor censors, for every region of the run, each volume
+	// where some region's signal is missing or non-finite (read as NaN by
+	// roi with LoadOptions.MissingCensor); without it such a value is an
+	// error at read time.
+	MissingCensor bool
+	FTests        []FTest
+	Audit         AuditThresholds
+	// Progress, when set, is called after each run is fitted with the
+	// number of runs done and the total; calls are serialised.
+	Progress func(done, total int)
 }
 
 // DefaultMotion are the motion columns taken when --motion is not given.
@@ -88,6 +99,7 @@ func Plan(runs []*roi.Run, o Options) ([]*RunPlan, error) {
 	if err := checkContrasts(plans, o.Contrasts, o.FTests); err != nil {
 		return nil, err
 	}
+	foreignConditionWarnings(plans)
 	cs := o.Contrasts
 	if len(cs) == 0 {
 		cs = DefaultContrasts(plans)
@@ -137,6 +149,20 @@ func planRun(r *roi.Run, o Options) (*RunPlan, error) {
 	p.Y = make([][]float64, len(r.Signals.Cols))
 	for i, c := range r.Signals.Cols {
 		p.Y[i] = c[skip:]
+	}
+	missing := missingVolumes(p.Y)
+	if missing != nil {
+		if !o.MissingCensor {
+			return nil, fmt.Errorf("run %s: %s has missing or non-finite values; use --missing censor to censor those volumes", key, r.Spec.Signals)
+		}
+		p.Y = fillMissing(p.Y, missing)
+		var vols []string
+		for v, m := range missing {
+			if m {
+				vols = append(vols, fmt.Sprint(v+skip))
+			}
+		}
+		p.Warnings = append(p.Warnings, fmt.Sprintf("run %s: volumes %s have missing or non-finite signal values and are censored for every region", key, joinMax(vols, 20)))
 	}
 	if r.Events != nil {
 		shift := float64(skip) * tr
@@ -205,6 +231,14 @@ func planRun(r *roi.Run, o Options) (*RunPlan, error) {
 		}
 	} else if o.CensorFD > 0 {
 		return nil, fmt.Errorf("run %s: --censor-fd needs the six motion columns, and the run has none (give --motion or a confounds table with tx,ty,tz,rx,ry,rz)", key)
+	}
+	if missing != nil {
+		if spec.Censor == nil {
+			spec.Censor = make([]bool, n)
+		}
+		for v, m := range missing {
+			spec.Censor[v] = spec.Censor[v] || m
+		}
 	}
 	d, err := BuildDesign(spec)
 	if err != nil {
@@ -346,10 +380,24 @@ type StudyResult struct {
 	Warnings []string
 }
 
+// Interrupted is returned when a fit was cancelled: Done of Total runs
+// had been fitted.
+type Interrupted struct{ Done, Total int }
+
+func (e *Interrupted) Error() string {
+	return fmt.Sprintf("interrupted after fitting %d of %d runs", e.Done, e.Total)
+}
+
 // FitStudy fits every planned run (in parallel over o.Jobs workers; results
 // do not depend on the worker count), computes contrasts and q values per
 // run, and combines runs within each subject by fixed effects.
 func FitStudy(plans []*RunPlan, o Options) (*StudyResult, error) {
+	return FitStudyContext(context.Background(), plans, o)
+}
+
+// FitStudyContext is FitStudy that stops between runs when ctx is done and
+// returns an *Interrupted error.
+func FitStudyContext(ctx context.Context, plans []*RunPlan, o Options) (*StudyResult, error) {
 	cs := o.Contrasts
 	if len(cs) == 0 {
 		cs = DefaultContrasts(plans)
@@ -366,6 +414,8 @@ func FitStudy(plans []*RunPlan, o Options) (*StudyResult, error) {
 		jobs = runtime.NumCPU()
 	}
 	errs := make([]error, len(plans))
+	var done atomic.Int64
+	var progressMu sync.Mutex
 	var wg sync.WaitGroup
 	next := make(chan int)
 	for w := 0; w < jobs; w++ {
@@ -373,7 +423,18 @@ func FitStudy(plans []*RunPlan, o Options) (*StudyResult, error) {
 		go func() {
 			defer wg.Done()
 			for i := range next {
+				if ctx.Err() != nil {
+					continue
+				}
 				res.Runs[i], errs[i] = fitPlanned(plans[i], cs, fts, o.Noise)
+				if errs[i] == nil {
+					n := done.Add(1)
+					if o.Progress != nil {
+						progressMu.Lock()
+						o.Progress(int(n), len(plans))
+						progressMu.Unlock()
+					}
+				}
 			}
 		}()
 	}
@@ -382,6 +443,9 @@ func FitStudy(plans []*RunPlan, o Options) (*StudyResult, error) {
 	}
 	close(next)
 	wg.Wait()
+	if ctx.Err() != nil {
+		return nil, &Interrupted{Done: int(done.Load()), Total: len(plans)}
+	}
 	for _, err := range errs {
 		if err != nil {
 			return nil, err
@@ -567,4 +631,87 @@ func columnIndex(names []string, name string) int {
 		}
 	}
 	return -1
+}
+
+// missingVolumes marks the volumes where any region's value is NaN or
+// infinite; nil when there are none.
+func missingVolumes(y [][]float64) []bool {
+	var m []bool
+	for _, col := range y {
+		for t, v := range col {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				if m == nil {
+					m = make([]bool, len(col))
+				}
+				m[t] = true
+			}
+		}
+	}
+	return m
+}
+
+// fillMissing returns copies of the columns with every marked volume set to
+// the column's mean over the unmarked ones. The value does not matter to the
+// estimates: the volume's censor term absorbs it (an indicator for one
+// observation removes it from a least-squares or GLS fit exactly).
+func fillMissing(y [][]float64, marked []bool) [][]float64 {
+	out := make([][]float64, len(y))
+	for i, col := range y {
+		c := append([]float64(nil), col...)
+		out[i] = c
+		sum, n := 0.0, 0
+		for t, v := range col {
+			if !marked[t] {
+				sum += v
+				n++
+			}
+		}
+		mean := 0.0
+		if n > 0 {
+			mean = sum / float64(n)
+		}
+		for t := range c {
+			if marked[t] {
+				c[t] = mean
+			}
+		}
+	}
+	return out
+}
+
+// foreignConditionWarnings warns about a run with events whose conditions
+// appear in no other run of the study, the mark of an events table that
+// belongs to another study or task.
+func foreignConditionWarnings(plans []*RunPlan) {
+	if len(plans) < 2 {
+		return
+	}
+	count := map[string]int{}
+	for _, p := range plans {
+		for _, c := range p.Design.Conditions {
+			count[c]++
+		}
+	}
+	for _, p := range plans {
+		conds := p.Design.Conditions
+		if len(conds) == 0 {
+			continue
+		}
+		shared := false
+		for _, c := range conds {
+			if count[c] > 1 {
+				shared = true
+			}
+		}
+		if !shared {
+			var others []string
+			for c, n := range count {
+				if n > 0 && !slices.Contains(conds, c) {
+					others = append(others, c)
+				}
+			}
+			sort.Strings(others)
+			p.Warnings = append(p.Warnings, fmt.Sprintf("run %s: none of its conditions (%s) appear in any other run (which have %s): check that its events table belongs to it", p.Run.Spec.Key(), strings.Join(conds, ", "), strings.Join(others, ", ")))
+		}
+	}
 }

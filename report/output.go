@@ -45,6 +45,71 @@ func (o *Output) Create(rel string) (*File, error) {
 	return file, nil
 }
 
+// ResultFiles are the names of every file a fit or group run writes into
+// its folder (design tables aside, which live in design/).
+func ResultFiles() []string {
+	names := []string{"report.md", "provenance.json", "group-report.md"}
+	for _, t := range allTables() {
+		names = append(names, t.File)
+	}
+	return names
+}
+
+// allTables lists every table definition, first-level and group.
+func allTables() []TableDef {
+	return append(append([]TableDef(nil), Tables...), extraTables...)
+}
+
+// extraTables are tables defined outside columns.go (appended by their
+// files' init functions).
+var extraTables []TableDef
+
+// ExistingResults returns the result files already in dir (design tables
+// included), so a caller can refuse to overwrite them.
+func ExistingResults(dir string) []string {
+	var found []string
+	for _, name := range ResultFiles() {
+		if _, err := os.Stat(filepath.Join(dir, name)); err == nil {
+			found = append(found, name)
+		}
+	}
+	if m, _ := filepath.Glob(filepath.Join(dir, "design", "*.csv")); len(m) > 0 {
+		found = append(found, "design/")
+	}
+	return found
+}
+
+// CommitReplacing commits like Commit and then removes every result file of
+// an earlier run that this one did not write (a stale responses.csv from an
+// FIR fit, a design table of a run no longer in the study, group results of
+// the earlier fit), so the folder holds one run's results only.
+func (o *Output) CommitReplacing() error {
+	written := map[string]bool{}
+	for _, p := range o.pending {
+		written[p.path] = true
+	}
+	if err := o.Commit(); err != nil {
+		return err
+	}
+	for _, name := range ResultFiles() {
+		path := filepath.Join(o.Dir, name)
+		if !written[path] {
+			if err := os.Remove(path); err != nil && !os.IsNotExist(err) {
+				return err
+			}
+		}
+	}
+	old, _ := filepath.Glob(filepath.Join(o.Dir, "design", "*.csv"))
+	for _, path := range old {
+		if !written[path] {
+			if err := os.Remove(path); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}
+
 // Commit flushes, syncs and renames every file into place.
 func (o *Output) Commit() error {
 	for _, p := range o.pending {

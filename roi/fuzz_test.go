@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"errors"
 	"math"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -76,6 +77,91 @@ func FuzzParseNumeric(f *testing.F) {
 			if want := countDataRows(text); rows != want {
 				t.Fatalf("%d rows read; the text has %d lines after the header", rows, want)
 			}
+		}
+		checkNoShift(t, text, n)
+	})
+}
+
+// checkNoShift compares every cell with a plain split of the text, for
+// simple comma tables (no quotes, BOM, CR, tab, semicolon or blank line),
+// so a reader that moved a value to another column or row would fail.
+func checkNoShift(t *testing.T, text string, n *Numeric) {
+	if strings.ContainsAny(text, "\"\r\t;\ufeff") || strings.Contains(text, "\n\n") || strings.HasPrefix(text, "\n") {
+		return
+	}
+	lines := strings.Split(strings.TrimSuffix(text, "\n"), "\n")
+	if len(lines)-1 != n.Rows() {
+		return
+	}
+	for i, line := range lines[1:] {
+		cells := strings.Split(line, ",")
+		if len(cells) != len(n.Cols) {
+			t.Fatalf("line %d has %d cells; the table has %d columns", i+2, len(cells), len(n.Cols))
+		}
+		for j, c := range cells {
+			c = strings.TrimSpace(c)
+			v, err := strconv.ParseFloat(c, 64)
+			got := n.Cols[j][i]
+			if err != nil {
+				if !math.IsNaN(got) {
+					t.Fatalf("cell %d:%d %q read as %v", i+2, j+1, c, got)
+				}
+				continue
+			}
+			if got != v && !(math.IsNaN(got) && math.IsNaN(v)) {
+				t.Fatalf("cell %d:%d %q read as %v", i+2, j+1, c, got)
+			}
+		}
+	}
+}
+
+// FuzzParseConfounds reads confounds tables, which allow missing cells.
+func FuzzParseConfounds(f *testing.F) {
+	f.Add([]byte("tx,ty,tz,rx,ry,rz,fd\n0,0,0,0,0,0,n/a\n0.1,0,0,0.001,0,0,0.15\n"))
+	f.Add([]byte("a\tb\nNA\t1\n"))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		n, err := ParseNumeric("confounds.tsv", bytes.NewReader(data), NumericOptions{AllowMissing: true})
+		if err != nil {
+			var ie *InputError
+			if !errors.As(err, &ie) || ie.File != "confounds.tsv" {
+				t.Fatalf("error %T %v is not an *InputError naming the file", err, err)
+			}
+			return
+		}
+		for j, c := range n.Cols {
+			if len(c) != n.Rows() {
+				t.Fatalf("column %d has %d values for %d rows", j, len(c), n.Rows())
+			}
+		}
+		checkNoShift(t, string(data), n)
+	})
+}
+
+// FuzzParseStudy reads study tables: a valid one has every required field
+// and no repeated run.
+func FuzzParseStudy(f *testing.F) {
+	f.Add([]byte("subject,run,tr,signals\n01,1,2,s.csv\n"))
+	f.Add([]byte("subject\tsession\trun\ttr\tsignals\tevents\n01\tpre\t1\t0.8\ta.csv\tn/a\n"))
+	f.Add([]byte("subject;run;tr;signals\n01;1;2000;s.csv\n01;1;2;s.csv\n"))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		st, err := ParseStudy("study.csv", bytes.NewReader(data))
+		if err != nil {
+			var ie *InputError
+			if !errors.As(err, &ie) || ie.File != "study.csv" {
+				t.Fatalf("error %T %v is not an *InputError naming the file", err, err)
+			}
+			return
+		}
+		seen := map[string]bool{}
+		for _, r := range st.Runs {
+			if r.Subject == "" || r.Run == "" || r.Signals == "" || !(r.TR > 0 && r.TR <= 20) || r.Line < 2 {
+				t.Fatalf("invalid run accepted: %+v", r)
+			}
+			k := r.Subject + "\x00" + r.Session + "\x00" + r.Run
+			if seen[k] {
+				t.Fatalf("repeated run accepted: %+v", r)
+			}
+			seen[k] = true
 		}
 	})
 }

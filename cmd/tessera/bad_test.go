@@ -93,7 +93,7 @@ func (c corpusCase) prepare(t *testing.T) (args []string, work string, outs []st
 	return args, work, outs
 }
 
-// TestBadInputs runs every case of testdata/bad: the exit status, every
+// TestBadInputs runs every case of testdata/bad through the built binary: the exit status, every
 // message fragment, and nothing written: no result table or temporary in
 // the output folder, no input changed or added.
 func TestBadInputs(t *testing.T) {
@@ -116,7 +116,7 @@ func TestBadInputs(t *testing.T) {
 			}
 			args, work, outs := c.prepare(t)
 			before := listFiles(t, work)
-			code, stdout, stderr := runCLI(args...)
+			code, stdout, stderr := runBinary(t, args...)
 			if code != c.status {
 				t.Errorf("exit status %d; want %d\nstderr:\n%s", code, c.status, stderr)
 			}

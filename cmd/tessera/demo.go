@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"io"
 	"path/filepath"
@@ -19,7 +20,7 @@ tessera demo -o /tmp/tessera-demo`,
 	flags: func() *flag.FlagSet { fs, _ := demoFlags(); return fs },
 }
 
-func init() { demoCommand.run = runDemo }
+func init() { demoCommand.runCtx = runDemo }
 
 func demoFlags() (*flag.FlagSet, *string) {
 	fs := flag.NewFlagSet("demo", flag.ContinueOnError)
@@ -50,7 +51,7 @@ var (
 	demoContrasts = []string{"order = ordered - jumbled", "viewing = 0.5*ordered + 0.5*jumbled", "glint"}
 )
 
-func runDemo(args []string, stdout, stderr io.Writer) error {
+func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 	fs, out := demoFlags()
 	if err := parseFlags(fs, args); err != nil {
 		return err
@@ -74,7 +75,8 @@ func runDemo(args []string, stdout, stderr io.Writer) error {
 	fmt.Fprintf(stdout, "demo: the mosaic study (invented): %d subjects, %d runs, %d regions, conditions %v\n",
 		6, len(st.Runs), len(demoRegions), demoConditions)
 	fmt.Fprintf(stdout, "study written to %s (planted effects in truth.csv)\n", studyDir)
-	fitArgs := []string{filepath.Join(studyDir, "study.csv"), "-o", resultsDir}
+	// The demo's folder is its own: a new demo replaces the previous one.
+	fitArgs := []string{filepath.Join(studyDir, "study.csv"), "-o", resultsDir, "--overwrite"}
 	for _, c := range demoContrasts {
 		fitArgs = append(fitArgs, "--contrast", c)
 	}
@@ -82,7 +84,7 @@ func runDemo(args []string, stdout, stderr io.Writer) error {
 	if err := parseFlags(ffs, fitArgs); err != nil {
 		return err
 	}
-	res, err := fitStudy(ffs, m, ffs.Args(), resultsDir, append([]string{"tessera", "fit"}, fitArgs...))
+	res, err := fitStudy(ctx, ffs, m, ffs.Args(), resultsDir, append([]string{"tessera", "fit"}, fitArgs...))
 	if err != nil {
 		return err
 	}

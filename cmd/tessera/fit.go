@@ -1,12 +1,15 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"io"
 	"math"
 	"os"
 	"sort"
+	"strconv"
 	"strings"
+	"time"
 
 	flag "github.com/spf13/pflag"
 
@@ -23,17 +26,18 @@ tessera fit -s sub-01_signals.csv -e sub-01_events.tsv -c sub-01_confounds.csv -
 	flags: func() *flag.FlagSet { fs, _, _ := fitFlags(); return fs },
 }
 
-func init() { fitCommand.run = runFit }
+func init() { fitCommand.runCtx = runFit }
 
 func fitFlags() (*flag.FlagSet, *modelFlags, *string) {
 	fs := flag.NewFlagSet("fit", flag.ContinueOnError)
 	m := &modelFlags{}
 	m.register(fs)
 	out := fs.StringP("output", "o", "", "folder for the results (required)")
+	fs.BoolVar(&m.overwrite, "overwrite", false, "replace the results already in the -o folder (they are otherwise never overwritten)")
 	return fs, m, out
 }
 
-func runFit(args []string, stdout, stderr io.Writer) error {
+func runFit(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 	fs, m, out := fitFlags()
 	if err := parseFlags(fs, args); err != nil {
 		return err
@@ -41,7 +45,7 @@ func runFit(args []string, stdout, stderr io.Writer) error {
 	if *out == "" {
 		return usagef("-o DIR is required: the folder for the results")
 	}
-	res, err := fitStudy(fs, m, fs.Args(), *out, append([]string{"tessera", "fit"}, args...))
+	res, err := fitStudy(ctx, fs, m, fs.Args(), *out, append([]string{"tessera", "fit"}, args...))
 	if err != nil {
 		return err
 	}
@@ -55,11 +59,14 @@ func runFit(args []string, stdout, stderr io.Writer) error {
 // fitStudy reads, plans, fits and writes one study into outDir.
 // command is the full command line that asked for the fit, recorded in
 // provenance.json and quoted in report.md.
-func fitStudy(fs *flag.FlagSet, m *modelFlags, args []string, outDir string, command []string) (*fit.StudyResult, error) {
+func fitStudy(ctx context.Context, fs *flag.FlagSet, m *modelFlags, args []string, outDir string, command []string) (*fit.StudyResult, error) {
 	tm := newTimer()
 	o, err := m.options()
 	if err != nil {
 		return nil, err
+	}
+	if found := report.ExistingResults(outDir); len(found) > 0 && !m.overwrite {
+		return nil, fmt.Errorf("-o %s already holds results (%s); use --overwrite to replace them, or choose another folder", outDir, strings.Join(found, ", "))
 	}
 	l, err := m.load(args)
 	if err != nil {
@@ -73,7 +80,12 @@ func fitStudy(fs *flag.FlagSet, m *modelFlags, args []string, outDir string, com
 	if err != nil {
 		return nil, err
 	}
-	res, err := fit.FitStudy(plans, o)
+	if ms, err := strconv.Atoi(os.Getenv(testRunDelayEnv)); err == nil && ms > 0 {
+		// A test hook: pause after each run so that a test can interrupt a
+		// fit in the middle (see TestInterrupt).
+		o.Progress = func(done, total int) { time.Sleep(time.Duration(ms) * time.Millisecond) }
+	}
+	res, err := fit.FitStudyContext(ctx, plans, o)
 	if err != nil {
 		return nil, err
 	}
@@ -115,7 +127,11 @@ func fitStudy(fs *flag.FlagSet, m *modelFlags, args []string, outDir string, com
 		outp.Abort()
 		return nil, err
 	}
-	if err := outp.Commit(); err != nil {
+	if ctx.Err() != nil {
+		outp.Abort()
+		return nil, &fit.Interrupted{Done: len(plans), Total: len(plans)}
+	}
+	if err := outp.CommitReplacing(); err != nil {
 		return nil, err
 	}
 	return res, nil
@@ -153,6 +169,10 @@ func printSummary(w io.Writer, res *fit.StudyResult, outDir string) {
 func joinPath(dir, file string) string {
 	return strings.TrimSuffix(dir, string(os.PathSeparator)) + string(os.PathSeparator) + file
 }
+
+// testRunDelayEnv names the environment variable of the interrupt test's
+// hook: milliseconds to pause after each fitted run.
+const testRunDelayEnv = "TESSERA_TEST_RUN_DELAY_MS"
 
 // quoteArgs joins a command line for reading, quoting arguments that hold
 // spaces or shell characters.

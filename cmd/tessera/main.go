@@ -8,14 +8,23 @@
 package main
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"io"
 	"os"
+	"os/signal"
 	"strings"
+	"syscall"
 
 	flag "github.com/spf13/pflag"
+
+	"github.com/tessera-fmri/tessera/fit"
 )
+
+// exitInterrupted is the exit status after SIGINT or SIGTERM: 128 + 2, as
+// shells report a process ended by SIGINT (common practice).
+const exitInterrupted = 130
 
 // usageError is bad usage of the command line: exit status 2.
 type usageError struct{ msg string }
@@ -30,7 +39,10 @@ type command struct {
 	summary string
 	example string
 	run     func(args []string, stdout, stderr io.Writer) error
-	flags   func() *flag.FlagSet
+	// runCtx, when set, is used instead of run: the command stops cleanly
+	// when ctx is cancelled (SIGINT, SIGTERM).
+	runCtx func(ctx context.Context, args []string, stdout, stderr io.Writer) error
+	flags  func() *flag.FlagSet
 }
 
 var commands []*command
@@ -89,9 +101,21 @@ func run(args []string, stdout, stderr io.Writer) int {
 			return 0
 		}
 	}
-	err := c.run(args[1:], stdout, stderr)
+	var err error
+	if c.runCtx != nil {
+		ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+		err = c.runCtx(ctx, args[1:], stdout, stderr)
+		stop()
+	} else {
+		err = c.run(args[1:], stdout, stderr)
+	}
 	if err == nil {
 		return 0
+	}
+	var ie *fit.Interrupted
+	if errors.As(err, &ie) {
+		fmt.Fprintf(stderr, "tessera %s: %v; nothing was written (no table is partial). Run the command again to fit everything.\n", c.name, err)
+		return exitInterrupted
 	}
 	var ue *usageError
 	if errors.As(err, &ue) {

@@ -43,6 +43,8 @@ type modelFlags struct {
 	vifMax         float64
 	corrMax        float64
 	minEvents      int
+	missing        string
+	overwrite      bool
 	// single-run form
 	signals, events, confoundsFile string
 }
@@ -70,6 +72,7 @@ func (m *modelFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&m.drift, "drift", "cosine", "drift terms: cosine (cut-off from --highpass) or poly:K (Legendre polynomials to order K)")
 	fs.Float64Var(&m.vifMax, "vif-max", fit.DefaultAuditThresholds.VIF, "design audit: flag condition terms with a variance inflation factor above this")
 	fs.Float64Var(&m.corrMax, "correlation-max", fit.DefaultAuditThresholds.Correlation, "design audit: flag pairs of conditions correlating beyond this")
+	fs.StringVar(&m.missing, "missing", "error", "a missing or non-finite signal value: error (name the cell) or censor (censor that volume for every region of the run)")
 	fs.IntVar(&m.minEvents, "min-events", fit.DefaultAuditThresholds.MinEvents, "warn when a condition has fewer events than this in a run")
 	fs.StringVarP(&m.signals, "signals", "s", "", "single-run form: the signals table")
 	fs.StringVarP(&m.events, "events", "e", "", "single-run form: the events table")
@@ -157,6 +160,13 @@ func (m *modelFlags) options() (fit.Options, error) {
 	if m.censorMaxShare <= 0 || m.censorMaxShare > 1 || m.vifMax <= 1 || m.corrMax <= 0 || m.corrMax >= 1 || m.minEvents < 0 {
 		return o, usagef("audit thresholds: --censor-max-share in (0, 1], --vif-max > 1, --correlation-max in (0, 1), --min-events >= 0")
 	}
+	switch m.missing {
+	case "error":
+	case "censor":
+		o.MissingCensor = true
+	default:
+		return o, usagef("--missing %q: expected error or censor", m.missing)
+	}
 	o.Audit = fit.AuditThresholds{VIF: m.vifMax, Correlation: m.corrMax, CensoredShare: m.censorMaxShare, MinEvents: m.minEvents}
 	if m.sliceRef < 0 || m.sliceRef >= 1 {
 		return o, usagef("--slice-ref %g: expected a fraction of TR from 0 to below 1", m.sliceRef)
@@ -235,7 +245,7 @@ func (m *modelFlags) load(args []string) (*loaded, error) {
 			// checks of event timing against the run's end use it too.
 			s.TR = m.tr
 		}
-		r, err := roi.LoadRun(s, roi.LoadOptions{})
+		r, err := roi.LoadRun(s, roi.LoadOptions{MissingCensor: m.missing == "censor"})
 		if err != nil {
 			return nil, err
 		}

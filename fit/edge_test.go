@@ -1,0 +1,199 @@
+package fit_test
+
+import (
+	"math"
+	"math/rand/v2"
+	"strings"
+	"testing"
+
+	"github.com/tessera-fmri/tessera/fit"
+	"github.com/tessera-fmri/tessera/roi"
+)
+
+func blockEvents(n int, tr float64) []roi.Event {
+	var evs []roi.Event
+	for on := 10.0; on < float64(n)*tr-30; on += 40 {
+		evs = append(evs, roi.Event{Onset: on, Duration: 16, Amplitude: 1, Condition: "a"})
+	}
+	return evs
+}
+
+func edgeDesign(t *testing.T, n int) *fit.Design {
+	t.Helper()
+	d, err := fit.BuildDesign(fit.DesignSpec{Volumes: n, TR: 2, SliceRef: 0.5, Highpass: 128, Events: blockEvents(n, 2)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return d
+}
+
+func finite(t *testing.T, what string, vs ...float64) {
+	t.Helper()
+	for _, v := range vs {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			t.Errorf("%s: non-finite value %g", what, v)
+		}
+	}
+}
+
+// TestHugeBaselineTinyVariance: a baseline of 1e6 with noise of sd 1e-3
+// (tSNR 1e9) gives the same condition estimate as the same series about 0,
+// to 1e-6 relative: least squares by QR loses about cond · 1e-16 · 1e6/1e-3
+// of the noise scale, far below the estimate's own precision.
+func TestHugeBaselineTinyVariance(t *testing.T) {
+	const n = 200
+	d := edgeDesign(t, n)
+	rng := rand.New(rand.NewPCG(1, 2))
+	small := make([]float64, n)
+	huge := make([]float64, n)
+	for i := range small {
+		small[i] = 0.01*d.X.At(i, 0) + 1e-3*rng.NormFloat64()
+		huge[i] = 1e6 + small[i]
+	}
+	for _, noise := range []string{"none", "ar1", "ar:3"} {
+		nm, _ := fit.ParseNoise(noise)
+		a, err := fit.FitRun(d, []string{"r"}, [][]float64{small}, nm)
+		if err != nil {
+			t.Fatal(err)
+		}
+		b, err := fit.FitRun(d, []string{"r"}, [][]float64{huge}, nm)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ra, rb := a.Regions[0], b.Regions[0]
+		if rb.Skip != "" {
+			t.Fatalf("%s: region skipped: %s", noise, rb.Skip)
+		}
+		if e := math.Abs(ra.Beta[0]-rb.Beta[0]) / math.Abs(ra.Beta[0]); e > 1e-6 {
+			t.Errorf("%s: estimate %.12g vs %.12g about 0 (rel %.2g)", noise, rb.Beta[0], ra.Beta[0], e)
+		}
+		finite(t, noise, rb.StdError[0], rb.Sigma, rb.RSquared, rb.DurbinWatson, rb.LjungBoxP, rb.NormalityP)
+	}
+}
+
+// TestNearConstantRegion: an exactly constant region is skipped with a
+// reason; one that varies in its last digits is fitted with finite results.
+func TestNearConstantRegion(t *testing.T) {
+	const n = 150
+	d := edgeDesign(t, n)
+	flat := make([]float64, n)
+	wobble := make([]float64, n)
+	for i := range flat {
+		flat[i] = 812.5
+		wobble[i] = 812.5 + 1e-9*float64(i%5)
+	}
+	rf, err := fit.FitRun(d, []string{"flat", "wobble"}, [][]float64{flat, wobble}, fit.NoiseModel{Name: "ar1", Order: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rf.Regions[0].Skip != "constant signal" {
+		t.Errorf("constant region: skip %q", rf.Regions[0].Skip)
+	}
+	w := rf.Regions[1]
+	if w.Skip != "" {
+		t.Fatalf("near-constant region skipped: %s", w.Skip)
+	}
+	finite(t, "wobble", append(append([]float64{w.Sigma, w.RSquared}, w.Beta...), w.StdError...)...)
+}
+
+// TestBarelyEnoughVolumes: a run with one more volume than terms fits with
+// df = 1 and finite results; with as many volumes as terms it is refused.
+func TestBarelyEnoughVolumes(t *testing.T) {
+	evs := []roi.Event{{Onset: 2, Duration: 4, Amplitude: 1, Condition: "a"}}
+	d, err := fit.BuildDesign(fit.DesignSpec{Volumes: 3, TR: 2, SliceRef: 0.5, Events: evs})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, k := d.X.Dims(); k != 2 {
+		t.Fatalf("%d terms, want a and intercept", k)
+	}
+	y := []float64{100, 103, 101}
+	for _, noise := range []string{"none", "ar1"} {
+		nm, _ := fit.ParseNoise(noise)
+		rf, err := fit.FitRun(d, []string{"r"}, [][]float64{y}, nm)
+		if err != nil {
+			t.Fatalf("%s: %v", noise, err)
+		}
+		r := rf.Regions[0]
+		if r.DF != 1 {
+			t.Errorf("%s: df %d, want 1", noise, r.DF)
+		}
+		finite(t, noise, append(r.Beta, r.StdError...)...)
+	}
+	d2, _ := fit.BuildDesign(fit.DesignSpec{Volumes: 2, TR: 2, SliceRef: 0.5, Events: evs})
+	if _, err := fit.CheckDesign("01_1", d2); err == nil || !strings.Contains(err.Error(), "2 volumes cannot estimate 2 terms") {
+		t.Errorf("2 volumes for 2 terms: %v", err)
+	}
+}
+
+// TestIllConditionedDesignRefused: two conditions whose regressors differ by
+// 1e-10 of their size make a design whose condition number float64 cannot
+// support; it is refused with the condition number and both terms named.
+func TestIllConditionedDesignRefused(t *testing.T) {
+	evs := blockEvents(150, 2)
+	for _, e := range blockEvents(150, 2) {
+		e.Condition = "b"
+		e.Amplitude = 1 + 1e-10
+		evs = append(evs, e)
+	}
+	evs = append(evs, roi.Event{Onset: 1, Duration: 1e-9, Amplitude: 1, Condition: "b"})
+	d, err := fit.BuildDesign(fit.DesignSpec{Volumes: 150, TR: 2, SliceRef: 0.5, Highpass: 128, Events: evs})
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, err = fit.CheckDesign("03_2", d)
+	if err == nil {
+		t.Fatal("design accepted")
+	}
+	msg := err.Error()
+	for _, want := range []string{"run 03_2", "condition number", "limit 1e+08"} {
+		if !strings.Contains(msg, want) {
+			t.Errorf("message %q lacks %q", msg, want)
+		}
+	}
+	if !strings.Contains(msg, "are a, b:") && !strings.Contains(msg, "are b, a:") {
+		t.Errorf("message %q does not name a and b as the terms involved", msg)
+	}
+}
+
+// TestAREdgeOfStationarity: a random walk (a unit root) fitted with AR(1)
+// and no drift terms (which would otherwise absorb the walk's slow part)
+// has its coefficient held inside the stationary region (at most 0.99),
+// flagged, and the study fit warns about it.
+func TestAREdgeOfStationarity(t *testing.T) {
+	const n = 300
+	d, err := fit.BuildDesign(fit.DesignSpec{Volumes: n, TR: 2, SliceRef: 0.5, Events: blockEvents(n, 2)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(7, 7))
+	y := make([]float64, n)
+	v := 1000.0
+	for i := range y {
+		v += 5 * rng.NormFloat64()
+		y[i] = v
+	}
+	rf, err := fit.FitRun(d, []string{"walk"}, [][]float64{y}, fit.NoiseModel{Name: "ar1", Order: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	r := rf.Regions[0]
+	if len(r.AR) != 1 || r.AR[0] > 0.99 || !r.ARShrunk {
+		t.Errorf("AR %v, shrunk %v: want a coefficient held at or below 0.99 and flagged", r.AR, r.ARShrunk)
+	}
+	finite(t, "walk", append(r.Beta, r.StdError...)...)
+	sig := &roi.Numeric{Names: []string{"walk"}, Cols: [][]float64{y}}
+	run := &roi.Run{Spec: roi.RunSpec{Subject: "01", Run: "1", TR: 2}, Signals: sig, Events: &roi.Events{Events: blockEvents(n, 2)}}
+	o := fit.Options{SliceRef: 0.5, Noise: fit.NoiseModel{Name: "ar1", Order: 1}, Jobs: 1}
+	plans, err := fit.Plan([]*roi.Run{run}, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := fit.FitStudy(plans, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(strings.Join(res.Warnings, "\n"), "edge of stationarity") {
+		t.Errorf("no stationarity warning: %v", res.Warnings)
+	}
+}
