@@ -97,7 +97,7 @@ var Tables = []TableDef{Estimates, Contrasts, SubjectContrasts, Diagnostics, Mot
 // every column's meaning and unit.
 func CodebookMarkdown() string {
 	var b strings.Builder
-	for _, t := range Tables {
+	for _, t := range allTables() {
 		fmt.Fprintf(&b, "#### `%s` (one row per %s)\n\n", t.File, t.RowPer)
 		b.WriteString("| column | meaning | unit |\n| --- | --- | --- |\n")
 		for _, c := range t.Columns {

@@ -57,12 +57,8 @@ func ResultFiles() []string {
 
 // allTables lists every table definition, first-level and group.
 func allTables() []TableDef {
-	return append(append([]TableDef(nil), Tables...), extraTables...)
+	return append(append([]TableDef(nil), Tables...), GroupTables...)
 }
-
-// extraTables are tables defined outside columns.go (appended by their
-// files' init functions).
-var extraTables []TableDef
 
 // ExistingResults returns the result files already in dir (design tables
 // included), so a caller can refuse to overwrite them.

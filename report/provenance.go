@@ -27,6 +27,26 @@ type Provenance struct {
 	Inputs   []InputFile        `json:"inputs"`
 	Warnings []string           `json:"warnings"`
 	Timings  map[string]float64 `json:"timings_seconds"`
+	// Shard is set by fit --shard: which part of the study this folder
+	// holds, and the study's full run and subject order, which merge needs.
+	Shard *ShardInfo `json:"shard,omitempty"`
+	// Merged lists, in a merged folder, the shard folders it was made from.
+	Merged []string `json:"merged_from,omitempty"`
+}
+
+// RunKey identifies a run.
+type RunKey struct {
+	Subject string `json:"subject"`
+	Session string `json:"session"`
+	Run     string `json:"run"`
+}
+
+// ShardInfo describes one shard of a sharded fit.
+type ShardInfo struct {
+	Index    int      `json:"index"`
+	Count    int      `json:"count"`
+	Runs     []RunKey `json:"study_runs"`
+	Subjects []string `json:"study_subjects"`
 }
 
 // HashFile returns the size and SHA-256 of a file.

@@ -89,6 +89,9 @@ func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 		return err
 	}
 	printSummary(stdout, res, resultsDir)
+	if err := runGroupDir(resultsDir, stdout, stderr); err != nil {
+		return err
+	}
 	for _, w := range res.Warnings {
 		fmt.Fprintf(stderr, "warning: %s\n", w)
 	}

@@ -34,6 +34,7 @@ func fitFlags() (*flag.FlagSet, *modelFlags, *string) {
 	m.register(fs)
 	out := fs.StringP("output", "o", "", "folder for the results (required)")
 	fs.BoolVar(&m.overwrite, "overwrite", false, "replace the results already in the -o folder (they are otherwise never overwritten)")
+	fs.StringVar(&m.shard, "shard", "", "fit only the I-th of N disjoint sets of subjects (I/N, I from 1); join the outputs with tessera merge")
 	return fs, m, out
 }
 
@@ -99,7 +100,7 @@ func fitStudy(ctx context.Context, fs *flag.FlagSet, m *modelFlags, args []strin
 	if fitted == 0 {
 		return nil, fmt.Errorf("no run can be fitted: every run has fewer volumes than its design has terms (%s)", strings.Join(plans[0].Warnings, "; "))
 	}
-	prov := &report.Provenance{Program: "tessera", Version: version, Command: command, Options: map[string]string{}, Timings: tm.marks}
+	prov := &report.Provenance{Program: "tessera", Version: version, Command: command, Options: map[string]string{}, Timings: tm.marks, Shard: l.shard}
 	fs.VisitAll(func(f *flag.Flag) { prov.Options[f.Name] = f.Value.String() })
 	for _, in := range l.inputs {
 		h, err := report.HashFile(in)

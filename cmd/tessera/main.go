@@ -48,7 +48,7 @@ type command struct {
 var commands []*command
 
 func init() {
-	commands = []*command{demoCommand, simulateCommand, checkCommand, fitCommand}
+	commands = []*command{demoCommand, simulateCommand, checkCommand, fitCommand, groupCommand, mergeCommand}
 }
 
 func lookup(name string) *command {

@@ -45,6 +45,7 @@ type modelFlags struct {
 	minEvents      int
 	missing        string
 	overwrite      bool
+	shard          string
 	// single-run form
 	signals, events, confoundsFile string
 }
@@ -204,6 +205,42 @@ type loaded struct {
 	source string // the study table, or the signals table in single-run form
 	runs   []*roi.Run
 	inputs []string // every file read
+	// shard describes the subset fitted with --shard (nil without it).
+	shard *report.ShardInfo
+}
+
+// parseShard reads --shard I/N.
+func parseShard(s string) (i, n int, err error) {
+	a, b, ok := strings.Cut(s, "/")
+	i, err1 := strconv.Atoi(a)
+	n, err2 := strconv.Atoi(b)
+	if !ok || err1 != nil || err2 != nil || n < 1 || i < 1 || i > n {
+		return 0, 0, usagef("--shard %q: expected I/N with 1 <= I <= N, e.g. --shard 2/8", s)
+	}
+	return i, n, nil
+}
+
+// selectShard keeps the runs of the subjects of shard i of n: subjects are
+// numbered in order of first appearance in the study table and subject k
+// (from 0) goes to shard k mod n + 1, so shards are disjoint, cover the study
+// and stay balanced.
+func selectShard(specs []roi.RunSpec, i, n int) ([]roi.RunSpec, *report.ShardInfo) {
+	info := &report.ShardInfo{Index: i, Count: n}
+	index := map[string]int{}
+	for _, s := range specs {
+		if _, ok := index[s.Subject]; !ok {
+			index[s.Subject] = len(info.Subjects)
+			info.Subjects = append(info.Subjects, s.Subject)
+		}
+		info.Runs = append(info.Runs, report.RunKey{Subject: s.Subject, Session: s.Session, Run: s.Run})
+	}
+	var out []roi.RunSpec
+	for _, s := range specs {
+		if index[s.Subject]%n == i-1 {
+			out = append(out, s)
+		}
+	}
+	return out, info
 }
 
 // load reads the study (one positional argument) or the single run (-s).
@@ -238,6 +275,16 @@ func (m *modelFlags) load(args []string) (*loaded, error) {
 		return nil, usagef("expected a study table (STUDY) or -s SIGNALS")
 	default:
 		return nil, usagef("expected one study table, found %d arguments: %s", len(args), strings.Join(args, " "))
+	}
+	if m.shard != "" {
+		i, n, err := parseShard(m.shard)
+		if err != nil {
+			return nil, err
+		}
+		specs, l.shard = selectShard(specs, i, n)
+		if len(specs) == 0 {
+			return nil, fmt.Errorf("--shard %s: the study has %d subject(s), so this shard has none", m.shard, len(l.shard.Subjects))
+		}
 	}
 	for _, s := range specs {
 		if m.tr > 0 {

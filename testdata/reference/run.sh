@@ -1,7 +1,7 @@
 #!/usr/bin/env bash
 # Regenerates every reference output into OUTDIR (default: this script's folder).
 # Inputs are always read from this script's folder.
-# Needs Debian packages: r-base-core r-cran-nlme r-cran-lmtest python3-scipy
+# Needs Debian packages: r-base-core r-cran-nlme r-cran-lmtest r-cran-metafor python3-scipy
 # python3-statsmodels python3-numpy python3-pandas.
 set -euo pipefail
 here="$(cd "$(dirname "${BASH_SOURCE[0]}")" && pwd)"
@@ -22,4 +22,6 @@ $PY gls.py "$out"
 # design/: VIF (car::vif), nested-model F tests (anova), Legendre polynomials (scipy)
 "$RS" design/design.R "$out/design"
 $PY design/legendre.py "$out/design"
+# group/: t.test, lm, p.adjust, metafor::rma (REML, Knapp-Hartung), power.t.test, pt, qt
+"$RS" group/group.R "$out/group"
 echo "reference outputs written to $out"
