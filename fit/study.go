@@ -76,6 +76,45 @@ type RunPlan struct {
 	// motion columns).
 	FD    []float64
 	Audit []AuditRow
+	// Volumes is the number of kept volumes, TotalVolumes the number read.
+	Volumes, TotalVolumes int
+
+	skip    int
+	missing []bool // volumes censored because a signal value is missing
+	reload  func() (*roi.Numeric, error)
+}
+
+// Release drops the run's signals from memory after planning; Signals reads
+// them again with reload when the run is fitted. A study too large to hold
+// is then in memory one run (per worker) at a time. Released runs also drop
+// each region's covariance matrix once contrasts and F tests are computed.
+func (p *RunPlan) Release(reload func() (*roi.Numeric, error)) {
+	p.reload = reload
+	p.Y = nil
+	p.Run.Signals = &roi.Numeric{Path: p.Run.Signals.Path, Names: p.Run.Signals.Names}
+}
+
+// Signals returns the region signals over the kept volumes, reading them
+// again if the run was released.
+func (p *RunPlan) Signals() ([][]float64, error) {
+	if p.Y != nil || p.reload == nil {
+		return p.Y, nil
+	}
+	sig, err := p.reload()
+	if err != nil {
+		return nil, err
+	}
+	if sig.Rows() != p.TotalVolumes || len(sig.Cols) != len(p.Regions) {
+		return nil, fmt.Errorf("%s changed while it was being analysed (%d rows, %d columns; it had %d and %d)", sig.Path, sig.Rows(), len(sig.Cols), p.TotalVolumes, len(p.Regions))
+	}
+	y := make([][]float64, len(sig.Cols))
+	for i, c := range sig.Cols {
+		y[i] = c[p.skip:]
+	}
+	if p.missing != nil {
+		y = fillMissing(y, p.missing)
+	}
+	return y, nil
 }
 
 // Plan builds and checks the design of every run. Any run whose design
@@ -96,6 +135,17 @@ func Plan(runs []*roi.Run, o Options) ([]*RunPlan, error) {
 	if len(problems) > 0 {
 		return nil, fmt.Errorf("%s", strings.Join(problems, "\n"))
 	}
+	return FinishPlan(plans, o)
+}
+
+// PlanRun builds and checks one run's design, for callers that read and
+// plan runs one at a time (and may Release each); FinishPlan then does the
+// checks that span runs.
+func PlanRun(r *roi.Run, o Options) (*RunPlan, error) { return planRun(r, o) }
+
+// FinishPlan checks the contrasts against the study's conditions and
+// completes the design audit across runs (relative efficiency).
+func FinishPlan(plans []*RunPlan, o Options) ([]*RunPlan, error) {
 	if err := checkContrasts(plans, o.Contrasts, o.FTests); err != nil {
 		return nil, err
 	}
@@ -145,7 +195,7 @@ func planRun(r *roi.Run, o Options) (*RunPlan, error) {
 	n := total - skip
 	spec := DesignSpec{Volumes: n, TR: tr, SliceRef: o.SliceRef, Highpass: o.Highpass, Poly: o.Poly, HRF: o.HRF,
 		Derivatives: o.Derivatives, FIRWindow: o.FIRWindow, FIRBins: o.FIRBins, Modulate: o.Modulate, MotionTerms: o.MotionTerms}
-	p := &RunPlan{Run: r, TR: tr, Events: map[string]int{}, Regions: r.Signals.Names}
+	p := &RunPlan{Run: r, TR: tr, Events: map[string]int{}, Regions: r.Signals.Names, Volumes: n, TotalVolumes: total, skip: skip}
 	p.Y = make([][]float64, len(r.Signals.Cols))
 	for i, c := range r.Signals.Cols {
 		p.Y[i] = c[skip:]
@@ -156,6 +206,7 @@ func planRun(r *roi.Run, o Options) (*RunPlan, error) {
 			return nil, fmt.Errorf("run %s: %s has missing or non-finite values; use --missing censor to censor those volumes", key, r.Spec.Signals)
 		}
 		p.Y = fillMissing(p.Y, missing)
+		p.missing = missing
 		var vols []string
 		for v, m := range missing {
 			if m {
@@ -467,7 +518,11 @@ func fitPlanned(p *RunPlan, cs []Contrast, fts []FTest, noise NoiseModel) (*RunR
 	if p.Skipped() {
 		return rr, nil
 	}
-	f, err := FitRun(p.Design, p.Regions, p.Y, noise)
+	y, err := p.Signals()
+	if err != nil {
+		return nil, err
+	}
+	f, err := FitRun(p.Design, p.Regions, y, noise)
 	if err != nil {
 		return nil, fmt.Errorf("run %s: %v", p.Run.Spec.Key(), err)
 	}
@@ -543,6 +598,11 @@ func fitPlanned(p *RunPlan, cs []Contrast, fts []FTest, noise NoiseModel) (*RunR
 			pv[ri] = r.PValue
 		}
 		rr.FQ[fi] = BenjaminiHochberg(pv)
+	}
+	if p.reload != nil {
+		for i := range f.Regions {
+			f.Regions[i].Cov = nil
+		}
 	}
 	return rr, nil
 }

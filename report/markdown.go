@@ -33,6 +33,8 @@ type ReportInfo struct {
 	Study   string // path of the study table, or the signals file in single-run form
 	Command string
 	Outputs []string
+	// Figures, when given, are shown in a Figures section (see WriteFigures).
+	Figures []Figure
 }
 
 // WriteMarkdown writes report.md.
@@ -66,10 +68,10 @@ func Markdown(res *fit.StudyResult, info ReportInfo) string {
 		if s.Session != "" {
 			sessions[s.Session] = true
 		}
-		n := r.Plan.Run.Signals.Rows()
+		n := r.Plan.TotalVolumes
 		vols += n
 		minV, maxV = min(minV, n), max(maxV, n)
-		regions = max(regions, len(r.Plan.Run.Signals.Names))
+		regions = max(regions, len(r.Plan.Regions))
 		for c, k := range r.Plan.Events {
 			events[c] += k
 		}
@@ -130,7 +132,7 @@ func Markdown(res *fit.StudyResult, info ReportInfo) string {
 		if !r.Plan.Skipped() {
 			cond = fmt.Sprintf("%.3g", r.Plan.Condition)
 		}
-		p("| %s | %g | %d | %d | %d | %d | %d | %s | %s |\n", r.Plan.Run.Spec.Key(), r.Plan.TR, r.Plan.Run.Signals.Rows(),
+		p("| %s | %g | %d | %d | %d | %d | %d | %s | %s |\n", r.Plan.Run.Spec.Key(), r.Plan.TR, r.Plan.Volumes,
 			len(d.Terms), count[fit.TermDrift], count[fit.TermMotion], count[fit.TermConfound], strings.Join(ce, ", "), cond)
 	}
 	p("\nThe condition number is that of the design with every column scaled to unit length; designs above %.0g are refused.\n\n", fit.ConditionNumberLimit)
@@ -235,6 +237,7 @@ func Markdown(res *fit.StudyResult, info ReportInfo) string {
 	flag(fmt.Sprintf("low temporal SNR (baseline / sigma < %g)", FlagTSNR),
 		"Estimates are noisy and psc may be unreliable; check the region's signal and size.", lowSNR)
 	p("\n")
+	writeFigureSection(p, res, info.Figures)
 
 	if len(res.Warnings) > 0 {
 		p("## Warnings\n\n")

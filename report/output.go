@@ -72,13 +72,16 @@ func ExistingResults(dir string) []string {
 	if m, _ := filepath.Glob(filepath.Join(dir, "design", "*.csv")); len(m) > 0 {
 		found = append(found, "design/")
 	}
+	if m, _ := filepath.Glob(filepath.Join(dir, "figures", "*.png")); len(m) > 0 {
+		found = append(found, "figures/")
+	}
 	return found
 }
 
 // CommitReplacing commits like Commit and then removes every result file of
 // an earlier run that this one did not write (a stale responses.csv from an
-// FIR fit, a design table of a run no longer in the study, group results of
-// the earlier fit), so the folder holds one run's results only.
+// FIR fit, a design table or figure of a run no longer in the study, group
+// results of the earlier fit), so the folder holds one run's results only.
 func (o *Output) CommitReplacing() error {
 	written := map[string]bool{}
 	for _, p := range o.pending {
@@ -96,7 +99,8 @@ func (o *Output) CommitReplacing() error {
 		}
 	}
 	old, _ := filepath.Glob(filepath.Join(o.Dir, "design", "*.csv"))
-	for _, path := range old {
+	figs, _ := filepath.Glob(filepath.Join(o.Dir, "figures", "*.png"))
+	for _, path := range append(old, figs...) {
 		if !written[path] {
 			if err := os.Remove(path); err != nil {
 				return err

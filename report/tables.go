@@ -68,7 +68,7 @@ func WriteTables(out *Output, res *fit.StudyResult) error {
 		if err := writeDesign(out, s.Key(), d); err != nil {
 			return err
 		}
-		n := len(rr.Plan.Y[0])
+		n := rr.Plan.Volumes
 		if rr.Fit == nil {
 			for _, name := range rr.Plan.Regions {
 				diag.row(s.Subject, s.Session, s.Run, name, strconv.Itoa(n), "0", "", "", "", "skipped:too few volumes", "", "", "", "", "", "")

@@ -38,14 +38,11 @@ func runCheck(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	l, err := m.load(fs.Args())
+	l, err := m.load(fs.Args(), o)
 	if err != nil {
 		return err
 	}
-	plans, err := fit.Plan(l.runs, o)
-	if err != nil {
-		return err
-	}
+	plans := l.plans
 	fmt.Fprintf(stdout, "%s: %d run(s), conditions: %s\n\n", l.source, len(plans), strings.Join(fit.Conditions(plans), ", "))
 	fmt.Fprintf(stdout, "%-16s %6s %8s %6s %7s %10s  %s\n", "run", "TR", "volumes", "terms", "regions", "cond.num.", "events per condition")
 	var warnings []string
@@ -61,7 +58,7 @@ func runCheck(args []string, stdout, stderr io.Writer) error {
 		if !p.Skipped() {
 			cond = fmt.Sprintf("%.3g", p.Condition)
 		}
-		fmt.Fprintf(stdout, "%-16s %6g %8d %6d %7d %10s  %s\n", p.Run.Spec.Key(), p.TR, n, k, len(p.Run.Signals.Names), cond, strings.Join(ev, ", "))
+		fmt.Fprintf(stdout, "%-16s %6g %8d %6d %7d %10s  %s\n", p.Run.Spec.Key(), p.TR, n, k, len(p.Regions), cond, strings.Join(ev, ", "))
 		warnings = append(warnings, p.Run.Warnings...)
 		warnings = append(warnings, p.Warnings...)
 	}

@@ -34,6 +34,7 @@ func fitFlags() (*flag.FlagSet, *modelFlags, *string) {
 	m.register(fs)
 	out := fs.StringP("output", "o", "", "folder for the results (required)")
 	fs.BoolVar(&m.overwrite, "overwrite", false, "replace the results already in the -o folder (they are otherwise never overwritten)")
+	fs.BoolVar(&m.quiet, "quiet", false, "no progress bar")
 	fs.StringVar(&m.shard, "shard", "", "fit only the I-th of N disjoint sets of subjects (I/N, I from 1); join the outputs with tessera merge")
 	return fs, m, out
 }
@@ -46,6 +47,7 @@ func runFit(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	if *out == "" {
 		return usagef("-o DIR is required: the folder for the results")
 	}
+	m.progress = newProgress(stderr, m.quiet, "fitting runs")
 	res, err := fitStudy(ctx, fs, m, fs.Args(), *out, append([]string{"tessera", "fit"}, args...))
 	if err != nil {
 		return err
@@ -69,7 +71,7 @@ func fitStudy(ctx context.Context, fs *flag.FlagSet, m *modelFlags, args []strin
 	if found := report.ExistingResults(outDir); len(found) > 0 && !m.overwrite {
 		return nil, fmt.Errorf("-o %s already holds results (%s); use --overwrite to replace them, or choose another folder", outDir, strings.Join(found, ", "))
 	}
-	l, err := m.load(args)
+	l, err := m.load(args, o)
 	if err != nil {
 		return nil, err
 	}
@@ -77,14 +79,18 @@ func fitStudy(ctx context.Context, fs *flag.FlagSet, m *modelFlags, args []strin
 		return nil, err
 	}
 	tm.mark("read")
-	plans, err := fit.Plan(l.runs, o)
-	if err != nil {
-		return nil, err
-	}
+	plans := l.plans
+	o.Progress = m.progress
 	if ms, err := strconv.Atoi(os.Getenv(testRunDelayEnv)); err == nil && ms > 0 {
 		// A test hook: pause after each run so that a test can interrupt a
 		// fit in the middle (see TestInterrupt).
-		o.Progress = func(done, total int) { time.Sleep(time.Duration(ms) * time.Millisecond) }
+		bar := o.Progress
+		o.Progress = func(done, total int) {
+			time.Sleep(time.Duration(ms) * time.Millisecond)
+			if bar != nil {
+				bar(done, total)
+			}
+		}
 	}
 	res, err := fit.FitStudyContext(ctx, plans, o)
 	if err != nil {
@@ -114,12 +120,17 @@ func fitStudy(ctx context.Context, fs *flag.FlagSet, m *modelFlags, args []strin
 	if err != nil {
 		return nil, err
 	}
-	files := []string{"report.md", "estimates.csv", "contrasts.csv", "subject_contrasts.csv", "diagnostics.csv", "design/", "provenance.json"}
+	files := []string{"report.md", "estimates.csv", "contrasts.csv", "subject_contrasts.csv", "diagnostics.csv", "design/", "figures/", "provenance.json"}
 	if err := report.WriteTables(outp, res); err != nil {
 		outp.Abort()
 		return nil, err
 	}
-	if err := report.WriteMarkdown(outp, res, report.ReportInfo{Study: l.source, Command: quoteArgs(command), Outputs: files}); err != nil {
+	figs, err := report.WriteFigures(outp, res)
+	if err != nil {
+		outp.Abort()
+		return nil, err
+	}
+	if err := report.WriteMarkdown(outp, res, report.ReportInfo{Study: l.source, Command: quoteArgs(command), Outputs: files, Figures: figs}); err != nil {
 		outp.Abort()
 		return nil, err
 	}

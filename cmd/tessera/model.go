@@ -2,6 +2,7 @@ package main
 
 import (
 	"fmt"
+	"os"
 	"path/filepath"
 	"runtime"
 	"strconv"
@@ -46,6 +47,8 @@ type modelFlags struct {
 	missing        string
 	overwrite      bool
 	shard          string
+	quiet          bool
+	progress       func(done, total int)
 	// single-run form
 	signals, events, confoundsFile string
 }
@@ -203,7 +206,7 @@ func (m *modelFlags) options() (fit.Options, error) {
 // loaded is a study read from disk.
 type loaded struct {
 	source string // the study table, or the signals table in single-run form
-	runs   []*roi.Run
+	plans  []*fit.RunPlan
 	inputs []string // every file read
 	// shard describes the subset fitted with --shard (nil without it).
 	shard *report.ShardInfo
@@ -243,8 +246,9 @@ func selectShard(specs []roi.RunSpec, i, n int) ([]roi.RunSpec, *report.ShardInf
 	return out, info
 }
 
-// load reads the study (one positional argument) or the single run (-s).
-func (m *modelFlags) load(args []string) (*loaded, error) {
+// load reads the study (one positional argument) or the single run (-s)
+// and plans every run with the options o.
+func (m *modelFlags) load(args []string, o fit.Options) (*loaded, error) {
 	l := &loaded{}
 	var specs []roi.RunSpec
 	switch {
@@ -286,25 +290,61 @@ func (m *modelFlags) load(args []string) (*loaded, error) {
 			return nil, fmt.Errorf("--shard %s: the study has %d subject(s), so this shard has none", m.shard, len(l.shard.Subjects))
 		}
 	}
-	for _, s := range specs {
+	var total int64
+	for i := range specs {
 		if m.tr > 0 {
 			// --tr overrides the study table before the run is read, so the
 			// checks of event timing against the run's end use it too.
-			s.TR = m.tr
+			specs[i].TR = m.tr
 		}
-		r, err := roi.LoadRun(s, roi.LoadOptions{MissingCensor: m.missing == "censor"})
+		if st, err := os.Stat(specs[i].Signals); err == nil {
+			total += st.Size()
+		}
+	}
+	stream := total > streamBytes
+	var problems []string
+	for _, s := range specs {
+		lopt := roi.LoadOptions{MissingCensor: m.missing == "censor"}
+		r, err := roi.LoadRun(s, lopt)
 		if err != nil {
 			return nil, err
 		}
-		l.runs = append(l.runs, r)
 		for _, p := range []string{s.Signals, s.Events, s.Confounds} {
 			if p != "" {
 				l.inputs = append(l.inputs, p)
 			}
 		}
+		p, err := fit.PlanRun(r, o)
+		if err != nil {
+			problems = append(problems, err.Error())
+			continue
+		}
+		if stream {
+			spec := s
+			p.Release(func() (*roi.Numeric, error) {
+				r, err := roi.LoadRun(spec, lopt)
+				if err != nil {
+					return nil, err
+				}
+				return r.Signals, nil
+			})
+		}
+		l.plans = append(l.plans, p)
+	}
+	if len(problems) > 0 {
+		return nil, fmt.Errorf("%s", strings.Join(problems, "\n"))
+	}
+	var err error
+	if l.plans, err = fit.FinishPlan(l.plans, o); err != nil {
+		return nil, err
 	}
 	return l, nil
 }
+
+// streamBytes is the total size of the signals tables beyond which runs are
+// read one at a time when they are fitted (and read once before, to plan),
+// so memory holds the runs in flight rather than the whole study.
+var streamBytes int64 = 256 << 20
 
 // checkOutputDir refuses an output folder that is, or is inside, a folder
 // holding an input file: fit never writes inside an input folder.

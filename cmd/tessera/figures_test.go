@@ -1,0 +1,83 @@
+package main
+
+import (
+	"image/png"
+	"os"
+	"path/filepath"
+	"regexp"
+	"sort"
+	"strings"
+	"testing"
+)
+
+var reportImage = regexp.MustCompile(`!\[[^\]]*\]\(([^)]+)\)`)
+
+// figureLinks returns the image links of a report.md and checks that each
+// resolves to a PNG that decodes.
+func figureLinks(t *testing.T, dir string) []string {
+	t.Helper()
+	var links []string
+	for _, m := range reportImage.FindAllStringSubmatch(readFile(t, filepath.Join(dir, "report.md")), -1) {
+		links = append(links, m[1])
+		f, err := os.Open(filepath.Join(dir, filepath.FromSlash(m[1])))
+		if err != nil {
+			t.Errorf("report.md links %s: %v", m[1], err)
+			continue
+		}
+		if _, err := png.DecodeConfig(f); err != nil {
+			t.Errorf("%s: %v", m[1], err)
+		}
+		f.Close()
+	}
+	sort.Strings(links)
+	return links
+}
+
+// pngFiles lists figures/*.png of an output folder, relative.
+func pngFiles(t *testing.T, dir string) []string {
+	t.Helper()
+	var out []string
+	for name := range listFiles(t, filepath.Join(dir, "figures")) {
+		out = append(out, "figures/"+name)
+	}
+	sort.Strings(out)
+	return out
+}
+
+// TestFitFigures: tessera fit writes figures/ with exactly the files that
+// report.md links, and a refit with --overwrite removes the figures of
+// runs no longer in the study.
+func TestFitFigures(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "res")
+	mustRun(t, "fit", simulateStudy(t, 2, 2, 5, 100, 21), "-o", out, "--censor-fd", "0.3")
+	links := figureLinks(t, out)
+	files := pngFiles(t, out)
+	if strings.Join(links, " ") != strings.Join(files, " ") {
+		t.Fatalf("report.md links\n %q\nfigures/ holds\n %q", links, files)
+	}
+	for _, want := range []string{"figures/design_02_2.png", "figures/displacement_01_1.png"} {
+		if !strings.Contains(strings.Join(files, " "), want) {
+			t.Errorf("no %s among %q", want, files)
+		}
+	}
+	for _, kind := range []string{"timecourse_", "autocorrelation_"} {
+		if !strings.Contains(strings.Join(files, " "), "figures/"+kind) {
+			t.Errorf("no %s figure among %q", kind, files)
+		}
+	}
+	if !strings.Contains(readFile(t, filepath.Join(out, "report.md")), "- `figures/`\n") {
+		t.Error("report.md's file list lacks figures/")
+	}
+
+	// Refit a one-subject study into the same folder.
+	mustRun(t, "fit", simulateStudy(t, 1, 1, 5, 100, 22), "-o", out, "--overwrite")
+	links, files = figureLinks(t, out), pngFiles(t, out)
+	if strings.Join(links, " ") != strings.Join(files, " ") {
+		t.Errorf("after --overwrite, report.md links\n %q\nfigures/ holds\n %q", links, files)
+	}
+	for _, f := range files {
+		if strings.Contains(f, "_02_") || strings.Contains(f, "_01_2") {
+			t.Errorf("stale %s after --overwrite with one subject and run", f)
+		}
+	}
+}
