@@ -29,6 +29,7 @@ type GroupReportInfo struct {
 	Used         int // subjects in at least one model
 	Warnings     []string
 	Outputs      []string
+	Figures      []Figure // shown in a Figures section when given
 }
 
 // WriteGroupMarkdown writes group-report.md.
@@ -150,6 +151,13 @@ func GroupMarkdown(res *fit.GroupResult, info GroupReportInfo) string {
 	}
 	p("\n")
 
+	if len(info.Figures) > 0 {
+		p("## Figures\n\n")
+		for _, f := range info.Figures {
+			alt := strings.NewReplacer("[", "(", "]", ")", "\n", " ").Replace(f.Caption)
+			p("![%s](%s)\n\n%s\n\n", alt, f.Path, f.Caption)
+		}
+	}
 	if len(info.Warnings) > 0 {
 		p("## Warnings\n\n")
 		for _, w := range info.Warnings {

@@ -81,3 +81,32 @@ func TestFitFigures(t *testing.T) {
 		}
 	}
 }
+
+// TestGroupFigures: tessera group draws one effects figure per contrast and
+// term, each a decodable PNG that group-report.md links.
+func TestGroupFigures(t *testing.T) {
+	study := simulateStudy(t, 4, 1, 5, 100, 31)
+	out := filepath.Join(t.TempDir(), "res")
+	mustRun(t, "fit", study, "-o", out)
+	mustRun(t, "group", out)
+	rep := readFile(t, filepath.Join(out, "group-report.md"))
+	re := regexp.MustCompile(`!\[[^\]]*\]\((figures/group_[^)]+\.png)\)`)
+	links := re.FindAllStringSubmatch(rep, -1)
+	if len(links) != 2 { // one per condition contrast: jumbled, ordered
+		t.Fatalf("group-report.md links %d group figures, want 2", len(links))
+	}
+	for _, l := range links {
+		f, err := os.Open(filepath.Join(out, l[1]))
+		if err != nil {
+			t.Fatal(err)
+		}
+		img, err := png.Decode(f)
+		f.Close()
+		if err != nil {
+			t.Fatalf("%s: %v", l[1], err)
+		}
+		if b := img.Bounds(); b.Dx() < 400 || b.Dy() < 300 {
+			t.Errorf("%s is %v", l[1], b)
+		}
+	}
+}

@@ -110,7 +110,7 @@ func groupRun(o *groupOptions, dir, command string, stdout, stderr io.Writer) er
 	if o.participants != "" {
 		inputs = append(inputs, o.participants)
 	}
-	files := []string{"group.csv", "power.csv", "group-report.md"}
+	files := []string{"group.csv", "power.csv", "group-report.md", "figures/group_*.png"}
 	if err := checkNotInputs(outDir, files, inputs); err != nil {
 		return err
 	}
@@ -124,6 +124,12 @@ func groupRun(o *groupOptions, dir, command string, stdout, stderr io.Writer) er
 		out.Abort()
 		return err
 	}
+	figs, err := report.WriteGroupFigures(out, res)
+	if err != nil {
+		out.Abort()
+		return err
+	}
+	info.Figures = figs
 	if err := report.WriteGroupMarkdown(out, res, info); err != nil {
 		out.Abort()
 		return err
