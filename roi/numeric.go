@@ -1,9 +1,10 @@
 package roi
 
 import (
+	"encoding/binary"
 	"fmt"
 	"io"
-	"math"
+	"os"
 	"strconv"
 	"strings"
 )
@@ -23,13 +24,21 @@ type NumericOptions struct {
 }
 
 // ReadNumeric reads a wide numeric table (signals or confounds) from path.
-// See ParseNumeric for the rules.
+// See ParseNumeric for the rules. The file is read as a stream: besides the
+// table's numbers, reading holds about one line of text at a time.
 func ReadNumeric(path string, opt NumericOptions) (*Numeric, error) {
-	text, err := openText(path)
+	f, err := openFile(path)
 	if err != nil {
 		return nil, err
 	}
-	return parseNumeric(path, text, opt)
+	defer f.Close()
+	plain, unzipped := fileSizes(f)
+	return readNumeric(path, f, opt, func(isGzip bool) int64 {
+		if isGzip {
+			return unzipped
+		}
+		return plain
+	})
 }
 
 // ParseNumeric reads a wide numeric table from r; name is the file name used
@@ -43,94 +52,62 @@ func ReadNumeric(path string, opt NumericOptions) (*Numeric, error) {
 // rows is a missing cell in a one-column table and an error otherwise;
 // blank lines at the end are ignored. A table with a header and no rows is
 // an error. An *InputError locates the problem as file:line:column, the
-// column counted in cells from 1.
+// column counted in cells from 1. The text is read as a stream, and the
+// first problem in it is the one reported.
 func ParseNumeric(name string, r io.Reader, opt NumericOptions) (*Numeric, error) {
-	text, err := readText(name, r)
-	if err != nil {
-		return nil, err
+	var size int64
+	if l, ok := r.(interface{ Len() int }); ok { // bytes.Reader, strings.Reader, bytes.Buffer
+		size = int64(l.Len())
 	}
-	return parseNumeric(name, text, opt)
+	return readNumeric(name, r, opt, func(isGzip bool) int64 {
+		if isGzip {
+			return 0
+		}
+		return size
+	})
 }
 
-func parseNumeric(name, text string, opt NumericOptions) (*Numeric, error) {
-	s := newScanner(name, text)
-	names, hline, err := s.header("a header line naming the columns, then one row of numbers per volume")
+// readNumeric reads the table in r. size gives the length of its text, if
+// known (else 0), given whether r is gzip-compressed.
+func readNumeric(name string, r io.Reader, opt NumericOptions, size func(isGzip bool) int64) (*Numeric, error) {
+	src, isGzip, done, err := decompress(name, r)
 	if err != nil {
 		return nil, err
 	}
-	if err := headerLooksLikeData(s, names, hline); err != nil {
-		return nil, err
+	defer done()
+	return parseNumericStream(name, src, isGzip, size(isGzip), opt)
+}
+
+// fileSizes returns the size of f and, when f is gzip-compressed, the size
+// of its text as the gzip trailer gives it (modulo 4 GiB, of the last member
+// only: a guess), or 0.
+func fileSizes(f *os.File) (plain, unzipped int64) {
+	st, err := f.Stat()
+	if err != nil || !st.Mode().IsRegular() {
+		return 0, 0
 	}
-	m := len(names)
-	// Room for every row up front; a row of m cells takes at least m bytes,
-	// which bounds the guess when a wide header meets many short lines.
-	rowsGuess := min(strings.Count(s.text, "\n")+1, len(s.text)/m+1)
-	cols := make([][]float64, m)
-	for j := range cols {
-		cols[j] = make([]float64, 0, rowsGuess)
+	plain = st.Size()
+	var b [4]byte
+	if plain < 18 { // a gzip header and trailer
+		return plain, 0
 	}
-	missingExpected := "a number"
-	if opt.MissingHint != "" {
-		missingExpected += "; " + opt.MissingHint
+	if _, err := f.ReadAt(b[:2], 0); err != nil || string(b[:2]) != gzipMagic {
+		return plain, 0
 	}
-	var blanks []int // lines of empty lines not yet known to be followed by a row
-	for {
-		rec, err := s.next()
-		if err == io.EOF {
-			break
-		}
-		if err != nil {
-			return nil, err
-		}
-		if rec.blank() {
-			blanks = append(blanks, rec.line)
-			continue
-		}
-		for _, line := range blanks {
-			if m != 1 {
-				return nil, s.raggedError(record{line: line, cells: []string{""}, quoted: []bool{false}}, m)
-			}
-			if !opt.AllowMissing {
-				return nil, cellError(name, line, 1, names[0], "", cellMissing, missingExpected)
-			}
-			cols[0] = append(cols[0], math.NaN())
-		}
-		blanks = blanks[:0]
-		if len(rec.cells) != m {
-			return nil, s.raggedError(rec, m)
-		}
-		for j, cell := range rec.cells {
-			v, st := parseCell(cell)
-			switch st {
-			case cellNumber:
-			case cellMissing:
-				if !opt.AllowMissing {
-					return nil, cellError(name, rec.line, j+1, names[j], cell, st, missingExpected)
-				}
-				v = math.NaN()
-			case cellInfinite, cellOverflow:
-				if !opt.NonFiniteAsMissing {
-					return nil, cellError(name, rec.line, j+1, names[j], cell, st, "")
-				}
-				v = math.NaN()
-			default:
-				return nil, cellError(name, rec.line, j+1, names[j], cell, st, "")
-			}
-			cols[j] = append(cols[j], v)
-		}
+	if _, err := f.ReadAt(b[:], plain-4); err != nil {
+		return plain, 0
 	}
-	if len(cols[0]) == 0 {
-		return nil, &InputError{File: name, Line: hline,
-			Found:    "a header and no rows",
-			Expected: "one row of numbers per volume after the header"}
+	unzipped = int64(binary.LittleEndian.Uint32(b[:]))
+	if unzipped < plain {
+		return plain, 0 // more than 4 GiB of text, or not one member
 	}
-	return &Numeric{Path: name, Names: names, Cols: cols}, nil
+	return plain, unzipped
 }
 
 // headerLooksLikeData refuses a header whose names are all numbers and not
 // all integers: such a table has lost its header line. (Integer names are
 // accepted, since atlases often label regions 1, 2, 3, ...)
-func headerLooksLikeData(s *scanner, names []string, line int) error {
+func headerLooksLikeData(file string, delim byte, names []string, line int) error {
 	integers := true
 	for _, n := range names {
 		if _, st := parseCell(n); st != cellNumber {
@@ -143,7 +120,7 @@ func headerLooksLikeData(s *scanner, names []string, line int) error {
 	if integers {
 		return nil
 	}
-	return &InputError{File: s.name, Line: line,
-		Found:    fmt.Sprintf("the first line %q holds numbers, not column names", shorten(strings.Join(names, string(s.delim)), 40)),
+	return &InputError{File: file, Line: line,
+		Found:    fmt.Sprintf("the first line %q holds numbers, not column names", shorten(strings.Join(names, string(delim)), 40)),
 		Expected: "a header line naming each column (for signals, one name per region) before the numbers"}
 }

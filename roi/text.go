@@ -46,15 +46,25 @@ func describeMissing(cell string) string {
 
 // openText reads the file at path as text (see readText).
 func openText(path string) (string, error) {
-	if err := checkReadable(path); err != nil {
-		return "", &InputError{File: path, Found: err.Error(), Expected: "a readable file"}
-	}
-	f, err := os.Open(path)
+	f, err := openFile(path)
 	if err != nil {
-		return "", &InputError{File: path, Found: describeOpenError(err), Expected: "a readable file"}
+		return "", err
 	}
 	defer f.Close()
 	return readText(path, f)
+}
+
+// openFile opens the file at path for reading, with an *InputError when it
+// cannot be.
+func openFile(path string) (*os.File, error) {
+	if err := checkReadable(path); err != nil {
+		return nil, &InputError{File: path, Found: err.Error(), Expected: "a readable file"}
+	}
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, &InputError{File: path, Found: describeOpenError(err), Expected: "a readable file"}
+	}
+	return f, nil
 }
 
 // fileProblem is a reason a path cannot be read, in words.
@@ -94,36 +104,18 @@ func describeOpenError(err error) string {
 // byte-order mark is removed; UTF-16 text and invalid UTF-8 are refused with
 // the line where the first bad byte is.
 func readText(name string, r io.Reader) (string, error) {
-	br := bufio.NewReader(r)
-	head, _ := br.Peek(len(gzipMagic))
-	isGzip := string(head) == gzipMagic
-	if strings.HasSuffix(strings.ToLower(name), ".gz") && !isGzip {
-		return "", &InputError{File: name,
-			Found:    "the name ends in .gz but the file is not gzip-compressed",
-			Expected: "a gzip-compressed file, or a name without .gz"}
+	src, isGzip, done, err := decompress(name, r)
+	if err != nil {
+		return "", err
 	}
-	var src io.Reader = br
-	if isGzip {
-		zr, err := gzip.NewReader(br)
-		if err != nil {
-			return "", &InputError{File: name, Found: "the compressed data is damaged (" + err.Error() + ")",
-				Expected: "a complete gzip file"}
-		}
-		defer zr.Close()
-		src = zr
-	}
+	defer done()
 	var sb strings.Builder
 	if _, err := io.Copy(&sb, src); err != nil {
-		found := "the file could not be read (" + err.Error() + ")"
-		if isGzip {
-			found = "the compressed data is damaged (" + err.Error() + ")"
-		}
-		return "", &InputError{File: name, Found: found, Expected: "a complete, readable file"}
+		return "", readError(name, isGzip, err)
 	}
 	text := sb.String()
-	if strings.HasPrefix(text, utf16LEBOM) || strings.HasPrefix(text, utf16BEBOM) {
-		return "", &InputError{File: name, Line: 1, Found: "the file is UTF-16 text",
-			Expected: "UTF-8 text (save the table as CSV UTF-8 or plain UTF-8 text)"}
+	if err := checkUTF16(name, text); err != nil {
+		return "", err
 	}
 	text = strings.TrimPrefix(text, utf8BOM)
 	if !utf8.ValidString(text) {
@@ -132,25 +124,81 @@ func readText(name string, r io.Reader) (string, error) {
 	return text, nil
 }
 
+// decompress returns the bytes of r to read as text: gzip-decompressed when
+// name ends in .gz or the bytes start with the gzip signature. done releases
+// the decompressor.
+func decompress(name string, r io.Reader) (src io.Reader, isGzip bool, done func(), err error) {
+	br := bufio.NewReader(r)
+	head, _ := br.Peek(len(gzipMagic))
+	isGzip = string(head) == gzipMagic
+	if strings.HasSuffix(strings.ToLower(name), ".gz") && !isGzip {
+		return nil, false, nil, &InputError{File: name,
+			Found:    "the name ends in .gz but the file is not gzip-compressed",
+			Expected: "a gzip-compressed file, or a name without .gz"}
+	}
+	if !isGzip {
+		return br, false, func() {}, nil
+	}
+	zr, err := gzip.NewReader(br)
+	if err != nil {
+		return nil, true, nil, &InputError{File: name, Found: "the compressed data is damaged (" + err.Error() + ")",
+			Expected: "a complete gzip file"}
+	}
+	return zr, true, func() { zr.Close() }, nil
+}
+
+// readError describes an error met while reading the bytes of a file.
+func readError(name string, isGzip bool, err error) *InputError {
+	found := "the file could not be read (" + err.Error() + ")"
+	if isGzip {
+		found = "the compressed data is damaged (" + err.Error() + ")"
+	}
+	return &InputError{File: name, Found: found, Expected: "a complete, readable file"}
+}
+
+// checkUTF16 refuses text that starts with a UTF-16 byte-order mark.
+func checkUTF16[T string | []byte](name string, text T) error {
+	if len(text) >= 2 && (string(text[:2]) == utf16LEBOM || string(text[:2]) == utf16BEBOM) {
+		return &InputError{File: name, Line: 1, Found: "the file is UTF-16 text",
+			Expected: "UTF-8 text (save the table as CSV UTF-8 or plain UTF-8 text)"}
+	}
+	return nil
+}
+
 // invalidUTF8 locates the first byte of text that is not UTF-8.
 func invalidUTF8(name, text string) *InputError {
+	off := firstInvalidUTF8(text)
+	start := strings.LastIndexAny(text[:off], "\r\n") + 1
+	return invalidUTF8At(name, 1+countLineEnds(text[:off]), text[start:off], text[off])
+}
+
+// firstInvalidUTF8 returns the offset of the first byte of s that is not
+// part of valid UTF-8 (len(s) when there is none).
+func firstInvalidUTF8[T string | []byte](s T) int {
 	off := 0
-	for off < len(text) {
-		r, size := utf8.DecodeRuneInString(text[off:])
+	for off < len(s) {
+		if s[off] < utf8.RuneSelf {
+			off++
+			continue
+		}
+		r, size := utf8.DecodeRuneInString(string(s[off:min(off+utf8.UTFMax, len(s))]))
 		if r == utf8.RuneError && size <= 1 {
 			break
 		}
 		off += size
 	}
-	line := 1 + countLineEnds(text[:off])
-	start := strings.LastIndexAny(text[:off], "\r\n") + 1
-	snippet := text[start:off]
-	if len(snippet) > 30 {
-		snippet = snippet[len(snippet)-30:]
+	return off
+}
+
+// invalidUTF8At is the message for the byte bad, which is not UTF-8, on
+// line; before is the text of the line before it.
+func invalidUTF8At(name string, line int, before string, bad byte) *InputError {
+	if len(before) > 30 {
+		before = before[len(before)-30:]
 	}
 	return &InputError{File: name, Line: line,
 		Found: fmt.Sprintf("byte 0x%02X after %q is not UTF-8 text (the file may be in a Latin-1 or Windows encoding)",
-			text[off], snippet),
+			bad, before),
 		Expected: "UTF-8 text (save the table as CSV UTF-8 or plain UTF-8 text)"}
 }
 
@@ -177,30 +225,50 @@ func countLineEnds(s string) int {
 // goes to comma, a tie of tab and semicolon to tab, and a line with none of
 // them (a one-column table) is read as comma-delimited.
 func detectDelimiter(header string) byte {
-	var comma, tab, semi int
-	inQuotes := false
-loop:
-	for i := 0; i < len(header); i++ {
-		c := header[i]
+	var d delimCount
+	countDelims(&d, header)
+	return d.pick()
+}
+
+// delimCount counts the delimiters of a header line outside quotes, so a
+// header can be fed to it one physical line at a time.
+type delimCount struct {
+	comma, tab, semi int
+	inQuotes         bool
+}
+
+// countDelims counts the delimiters of s up to its first line end outside
+// quotes, and reports whether it met that line end. A line end inside quotes
+// does not end the header line: when s is one physical line without its line
+// end, the header line goes on to the next one while d.inQuotes.
+func countDelims[T string | []byte](d *delimCount, s T) bool {
+	for i := 0; i < len(s); i++ {
+		c := s[i]
 		switch {
 		case c == '"':
-			inQuotes = !inQuotes
-		case inQuotes:
+			d.inQuotes = !d.inQuotes
+		case d.inQuotes:
 		case c == '\n' || c == '\r':
-			break loop
+			return true
 		case c == ',':
-			comma++
+			d.comma++
 		case c == '\t':
-			tab++
+			d.tab++
 		case c == ';':
-			semi++
+			d.semi++
 		}
 	}
-	best, n := byte(','), comma
-	if tab > n {
-		best, n = '\t', tab
+	return false
+}
+
+// pick returns the delimiter counted most often, ties broken as
+// detectDelimiter says.
+func (d *delimCount) pick() byte {
+	best, n := byte(','), d.comma
+	if d.tab > n {
+		best, n = '\t', d.tab
 	}
-	if semi > n {
+	if d.semi > n {
 		best = ';'
 	}
 	return best
@@ -383,29 +451,39 @@ func (s *scanner) header(what string) ([]string, int, error) {
 	if err != nil {
 		return nil, 0, err
 	}
+	names, err := checkHeader(s.name, s.delim, rec)
+	if err != nil {
+		return nil, 0, err
+	}
+	return names, rec.line, nil
+}
+
+// checkHeader returns the names of the header record rec of a table
+// delimited by delim, trimmed, or an error if one is empty or repeated.
+func checkHeader(file string, delim byte, rec record) ([]string, error) {
 	names := make([]string, len(rec.cells))
 	seen := make(map[string]int, len(rec.cells))
 	for j, cell := range rec.cells {
 		name := strings.TrimSpace(cell)
 		if name == "" {
 			if j == len(rec.cells)-1 && j > 0 && !rec.quoted[j] {
-				return nil, 0, &InputError{File: s.name, Line: rec.line, Column: j + 1,
+				return nil, &InputError{File: file, Line: rec.line, Column: j + 1,
 					Found: fmt.Sprintf("the header line ends with a %s, which makes an extra column with no name",
-						delimName(s.delim)),
-					Expected: "a name for every column (remove the " + delimName(s.delim) + " at the end of the line)"}
+						delimName(delim)),
+					Expected: "a name for every column (remove the " + delimName(delim) + " at the end of the line)"}
 			}
-			return nil, 0, &InputError{File: s.name, Line: rec.line, Column: j + 1,
+			return nil, &InputError{File: file, Line: rec.line, Column: j + 1,
 				Found: fmt.Sprintf("column %d of the header has no name", j+1), Expected: "a non-empty name for every column"}
 		}
 		if k, dup := seen[name]; dup {
-			return nil, 0, &InputError{File: s.name, Line: rec.line, Column: j + 1,
+			return nil, &InputError{File: file, Line: rec.line, Column: j + 1,
 				Found:    fmt.Sprintf("column %d is named %q, like column %d", j+1, name, k+1),
 				Expected: "a different name for every column"}
 		}
 		seen[name] = j
 		names[j] = name
 	}
-	return names, rec.line, nil
+	return names, nil
 }
 
 // raggedError describes a record whose cell count differs from the
