@@ -7,6 +7,7 @@ import (
 	"runtime"
 	"strconv"
 	"strings"
+	"sync"
 	"time"
 
 	flag "github.com/spf13/pflag"
@@ -302,38 +303,70 @@ func (m *modelFlags) load(args []string, o fit.Options) (*loaded, error) {
 		}
 	}
 	stream := total > streamBytes
-	var problems []string
-	for _, s := range specs {
-		lopt := roi.LoadOptions{MissingCensor: m.missing == "censor"}
-		r, err := roi.LoadRun(s, lopt)
+	// Runs are read and planned in parallel (jobs workers), each into its
+	// own slot, so the order and the result do not depend on the workers.
+	lopt := roi.LoadOptions{MissingCensor: m.missing == "censor"}
+	plans := make([]*fit.RunPlan, len(specs))
+	errs := make([]error, len(specs))
+	bad := make([]error, len(specs)) // design problems, all reported together
+	var wg sync.WaitGroup
+	next := make(chan int)
+	for w := 0; w < max(1, min(m.jobs, len(specs))); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range next {
+				r, err := roi.LoadRun(specs[i], lopt)
+				if err != nil {
+					errs[i] = err
+					continue
+				}
+				p, err := fit.PlanRun(r, o)
+				if err != nil {
+					bad[i] = err
+					continue
+				}
+				if stream {
+					spec := specs[i]
+					p.Release(func() (*roi.Numeric, error) {
+						r, err := roi.LoadRun(spec, lopt)
+						if err != nil {
+							return nil, err
+						}
+						return r.Signals, nil
+					})
+				}
+				plans[i] = p
+			}
+		}()
+	}
+	for i := range specs {
+		next <- i
+	}
+	close(next)
+	wg.Wait()
+	for _, err := range errs {
 		if err != nil {
-			return nil, err
+			return nil, err // the first bad input in study order
 		}
+	}
+	var problems []string
+	for _, err := range bad {
+		if err != nil {
+			problems = append(problems, err.Error())
+		}
+	}
+	if len(problems) > 0 {
+		return nil, fmt.Errorf("%s", strings.Join(problems, "\n"))
+	}
+	for _, s := range specs {
 		for _, p := range []string{s.Signals, s.Events, s.Confounds} {
 			if p != "" {
 				l.inputs = append(l.inputs, p)
 			}
 		}
-		p, err := fit.PlanRun(r, o)
-		if err != nil {
-			problems = append(problems, err.Error())
-			continue
-		}
-		if stream {
-			spec := s
-			p.Release(func() (*roi.Numeric, error) {
-				r, err := roi.LoadRun(spec, lopt)
-				if err != nil {
-					return nil, err
-				}
-				return r.Signals, nil
-			})
-		}
-		l.plans = append(l.plans, p)
 	}
-	if len(problems) > 0 {
-		return nil, fmt.Errorf("%s", strings.Join(problems, "\n"))
-	}
+	l.plans = plans
 	var err error
 	if l.plans, err = fit.FinishPlan(l.plans, o); err != nil {
 		return nil, err
