@@ -27,7 +27,7 @@ type Contrast struct {
 // double quotes. A name written twice has its weights added.
 func ParseContrast(s string) (Contrast, error) {
 	name, expr := "", s
-	if i := strings.Index(s, "="); i >= 0 {
+	if i := indexOutsideQuotes(s, '='); i >= 0 {
 		name, expr = strings.TrimSpace(s[:i]), strings.TrimSpace(s[i+1:])
 		if name == "" {
 			return Contrast{}, fmt.Errorf("contrast %q: the name before '=' is empty", s)
@@ -188,7 +188,7 @@ type FTest struct {
 
 // ParseFTest reads an --ftest value 'NAME = EXPR; EXPR; ...'.
 func ParseFTest(s string) (FTest, error) {
-	i := strings.Index(s, "=")
+	i := indexOutsideQuotes(s, '=')
 	if i < 0 {
 		return FTest{}, fmt.Errorf("--ftest %q: expected 'NAME = EXPR; EXPR; ...'", s)
 	}
@@ -196,7 +196,7 @@ func ParseFTest(s string) (FTest, error) {
 	if ft.Name == "" {
 		return FTest{}, fmt.Errorf("--ftest %q: the name before '=' is empty", s)
 	}
-	for k, part := range strings.Split(s[i+1:], ";") {
+	for k, part := range splitOutsideQuotes(s[i+1:], ';') {
 		part = strings.TrimSpace(part)
 		if part == "" {
 			continue
@@ -252,4 +252,36 @@ func ConditionFTest(d *Design, cond string) ([][]float64, bool) {
 		rows = append(rows, r)
 	}
 	return rows, len(rows) > 0
+}
+
+// splitOutsideQuotes splits s at every sep that is not inside a double-quoted
+// name, so a quoted condition name may hold the separator.
+func splitOutsideQuotes(s string, sep rune) []string {
+	var parts []string
+	start, quoted := 0, false
+	for i, r := range s {
+		switch {
+		case r == '"':
+			quoted = !quoted
+		case r == sep && !quoted:
+			parts = append(parts, s[start:i])
+			start = i + 1
+		}
+	}
+	return append(parts, s[start:])
+}
+
+// indexOutsideQuotes returns the byte index of the first r outside double
+// quotes, or -1.
+func indexOutsideQuotes(s string, r rune) int {
+	quoted := false
+	for i, c := range s {
+		switch {
+		case c == '"':
+			quoted = !quoted
+		case c == r && !quoted:
+			return i
+		}
+	}
+	return -1
 }

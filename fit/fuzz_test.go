@@ -41,3 +41,16 @@ func FuzzParseContrast(f *testing.F) {
 		}
 	})
 }
+
+// TestQuotedNamesHoldSeparators: a quoted condition name may hold '=' and
+// ';' (found by FuzzParseContrast: ';' split F test rows inside quotes).
+func TestQuotedNamesHoldSeparators(t *testing.T) {
+	c, err := ParseContrast(`"a=b;c" - d`)
+	if err != nil || c.Names[0] != "a=b;c" || c.Names[1] != "d" {
+		t.Fatalf("%+v, %v", c, err)
+	}
+	f, err := ParseFTest(`both = "x;y"; d`)
+	if err != nil || len(f.Rows) != 2 || f.Rows[0].Names[0] != "x;y" {
+		t.Fatalf("%+v, %v", f, err)
+	}
+}
