@@ -20,9 +20,9 @@ func TestLoadRunFromStudy(t *testing.T) {
 	if run.Signals.Rows() != 12 || run.Confounds.Rows() != 12 {
 		t.Fatalf("%d signal rows, %d confound rows; want 12 and 12", run.Signals.Rows(), run.Confounds.Rows())
 	}
-	fd := run.Confounds.Column("framewise_displacement")
+	fd := run.Confounds.Column("fd_mm")
 	if !math.IsNaN(fd[0]) || fd[1] != 0.05 {
-		t.Errorf("framewise_displacement starts %v; want NaN then 0.05", fd[:2])
+		t.Errorf("fd_mm starts %v; want NaN then 0.05", fd[:2])
 	}
 	var onsets []float64
 	for _, e := range run.Events.Events {

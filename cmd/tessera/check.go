@@ -16,7 +16,7 @@ var checkCommand = &command{
 	args:    "STUDY [model flags]",
 	summary: "read and validate every input, build every design and print the design audit; fits nothing",
 	example: `tessera check study.csv
-tessera check study.csv --confounds csf,white_matter --highpass 100`,
+tessera check study.csv --confounds csf,pulse_ox --highpass 100`,
 	flags: func() *flag.FlagSet { fs, _ := checkFlags(); return fs },
 }
 
