@@ -220,16 +220,7 @@ func TestExactGLSAgainstStatsmodels(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			n, k := x.Dims()
-			xw := mat.NewDense(n, k, nil)
-			col, wc := make([]float64, n), make([]float64, n)
-			for j := 0; j < k; j++ {
-				mat.Col(col, j, x)
-				w.Apply(wc, col)
-				xw.SetCol(j, wc)
-			}
-			yw := make([]float64, n)
-			w.Apply(yw, y)
+			xw, yw := whitenAll(w, x, y)
 			res, err := LeastSquares(xw, yw)
 			if err != nil {
 				t.Fatal(err)
