@@ -1,7 +1,6 @@
 package fit
 
 import (
-	"fmt"
 	"math"
 
 	"gonum.org/v1/gonum/mat"
@@ -22,13 +21,28 @@ type RegionFit struct {
 	// variance; for OLS the residual standard deviation.
 	Sigma    float64
 	RSquared float64 // 1 - sum(y - Xβ)² / sum(y - ȳ)², on the unwhitened data
-	AR       []float64
+	// AR holds a_1..a_P of an AR(P) model, or φ of ARMA(1,1); MA holds θ
+	// of ARMA(1,1) and is empty for AR models.
+	AR, MA   []float64
 	ARShrunk bool    // coefficients were pulled into the stationary region
 	Baseline float64 // mean raw signal over the retained volumes
+	// WhiteShare reads an ARMA(1,1) as AR(1) plus white noise: the share
+	// of the noise variance that is white; NaN when it is not of that form.
+	WhiteShare float64
+	// NoiseName is the model the region was fitted with (none, ar1, ar:P,
+	// arma; auto:MODEL for the choice of --noise auto), NoiseScope
+	// "region" or "run" (--noise-pool), NoisePasses the estimation passes
+	// (iterations of the REML optimiser for arma).
+	NoiseName   string
+	NoiseScope  string
+	NoisePasses int
 	// Residual checks on the whitened residuals.
 	DurbinWatson float64
 	LjungBoxP    float64
 	NormalityP   float64
+	// RawACF and WhitenedACF are the residual autocorrelations at lags
+	// 1..LjungBoxLag(volumes) before and after whitening.
+	RawACF, WhitenedACF []float64
 }
 
 // RunFit is the fit of every region of one run.
@@ -40,92 +54,17 @@ type RunFit struct {
 	Regions   []RegionFit
 }
 
-// arPasses is the number of times the noise model is estimated: from the
-// OLS residuals, then once more from the residuals of the first GLS fit.
-const arPasses = 2
-
 // FitRun fits every region of a run: y[r] is region r's signal over the
-// design's volumes. With an AR(P) noise model each region's coefficients are
-// estimated from its residuals with the bias correction of Worsley et al.
-// (2002, see ResidualBias), the exact GLS solution (see Whitener) is
-// computed, the coefficients are re-estimated from the GLS residuals and the
-// GLS solution recomputed. The design must have passed CheckDesign.
+// design's volumes. With a noise model each region's model is estimated
+// from the residual autocovariances, corrected for the bias the design
+// puts in them (Worsley et al. 2002), by iterating estimation and exact
+// GLS whitening to convergence (see engine.go); auto chooses the model per
+// region by AIC, arma fits ARMA(1,1) by REML. Estimates, standard errors
+// and t values are exactly the GLS solution under the reported model,
+// every volume kept. The design must have passed CheckDesign; an auto
+// model takes Pmax from NoiseModel.MaxOrder (see ForTR), 8 when unset.
 func FitRun(d *Design, names []string, y [][]float64, noise NoiseModel) (*RunFit, error) {
-	n, k := d.X.Dims()
-	if len(names) != len(y) {
-		panic("fit: region names and signals differ in length")
-	}
-	ols, err := NewLSQ(d.X)
-	if err != nil {
-		return nil, err
-	}
-	var estimate func(r []float64) ([]float64, bool)
-	switch {
-	case noise.Order == 1:
-		b := NewAR1Bias(d.X)
-		estimate = func(r []float64) ([]float64, bool) {
-			rho, shrunk := b.Estimate(r)
-			return []float64{rho}, shrunk
-		}
-	case noise.Order > 1:
-		estimate = NewResidualBias(d.X, noise.Order).Estimate
-	}
-	rf := &RunFit{Design: d, Noise: noise, Volumes: n, Regions: make([]RegionFit, len(y))}
-	xw := mat.NewDense(n, k, nil)
-	col := make([]float64, n)
-	wcol := make([]float64, n)
-	yw := make([]float64, n)
-	for r, yr := range y {
-		out := RegionFit{Region: names[r]}
-		mean, tss := meanSS(yr)
-		out.Baseline = baseline(yr, d.Censored)
-		if tss <= 1e-24*math.Max(1, mean*mean)*float64(n) {
-			out.Skip = "constant signal"
-			rf.Regions[r] = out
-			continue
-		}
-		beta, resid := ols.Solve(yr)
-		solver := ols
-		white := &Whitener{G0: 1}
-		copy(yw, yr)
-		for pass := 0; pass < arPasses && estimate != nil; pass++ {
-			a, shrunk := estimate(resid)
-			out.AR, out.ARShrunk = a, out.ARShrunk || shrunk
-			white, err = NewWhitener(a)
-			if err != nil {
-				return nil, fmt.Errorf("region %q: %v", names[r], err)
-			}
-			for j := 0; j < k; j++ {
-				mat.Col(col, j, d.X)
-				white.Apply(wcol, col)
-				xw.SetCol(j, wcol)
-			}
-			white.Apply(yw, yr)
-			solver, err = NewLSQ(xw)
-			if err != nil {
-				return nil, fmt.Errorf("region %q: whitened design: %v", names[r], err)
-			}
-			beta, _ = solver.Solve(yw)
-			resid = residuals(d.X, yr, beta)
-		}
-		res := solver.fit(yw)
-		out.Beta = beta
-		out.StdError = res.StdError
-		out.Cov = res.Cov
-		out.DF = res.DF
-		out.Sigma = res.Sigma * math.Sqrt(white.G0)
-		rss := 0.0
-		for _, v := range resid {
-			rss += v * v
-		}
-		out.RSquared = 1 - rss/tss
-		wr := res.Residuals
-		out.DurbinWatson = DurbinWatson(wr)
-		_, out.LjungBoxP = LjungBox(wr, LjungBoxLag(n), noise.Order)
-		_, out.NormalityP = JarqueBera(wr)
-		rf.Regions[r] = out
-	}
-	return rf, nil
+	return fitRunNoise(d, names, y, noise)
 }
 
 // baseline is the mean signal over the volumes that are not censored.
@@ -187,4 +126,22 @@ func (f *RegionFit) Contrast(c []float64) ContrastFit {
 		PValue: TwoSidedP(t, float64(f.DF)),
 		PSC:    100 * est / f.Baseline,
 	}
+}
+
+// Whitening is an exact whitening transform of a noise model.
+type Whitening interface {
+	// Apply writes the whitened series of src into dst (same length,
+	// no aliasing).
+	Apply(dst, src []float64)
+}
+
+// NoiseWhitener returns the exact whitening of n volumes under the region's
+// fitted noise model (AR(P), ARMA(1,1), or the identity for OLS).
+func (f *RegionFit) NoiseWhitener(n int) (Whitening, error) {
+	p := noiseParams{ar: f.AR, ma: f.MA}
+	if p.count() == 0 {
+		return &Whitener{G0: 1}, nil
+	}
+	w, _, err := p.whitener(n)
+	return w, err
 }

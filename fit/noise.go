@@ -9,66 +9,159 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
-// NoiseModel is the temporal noise model of a fit: Order 0 is ordinary
-// least squares; Order P > 0 is a stationary AR(P) process
+// NoiseKind is the family of a noise model.
+type NoiseKind int
+
+// Noise model families.
+const (
+	// NoiseUnset is the zero value: the kind follows from Name (or Order,
+	// when Name is empty), see Resolve.
+	NoiseUnset NoiseKind = iota
+	NoiseOLS             // ordinary least squares
+	NoiseAR              // AR(P), P fixed
+	NoiseARMA            // ARMA(1,1) (AR(1) plus white noise) by REML
+	NoiseAuto            // per region the AIC choice among AR(1..Pmax) and ARMA(1,1)
+)
+
+// NoiseModel is the temporal noise model of a fit: ordinary least squares,
+// a stationary AR(P) process
 //
 //	e_t = a_1 e_{t-1} + ... + a_P e_{t-P} + u_t,
 //
-// with coefficients estimated per region.
+// an ARMA(1,1) process e_t = φ e_{t-1} + u_t + θ u_{t-1} (which holds AR(1)
+// plus white noise), or the per-region choice among them (auto), with
+// parameters estimated per region, or once per run from all regions when
+// Pool is set.
 type NoiseModel struct {
-	Name  string // as given on the command line: none, ar1, ar:P
-	Order int
+	Name  string // as given on the command line: none, ar1, ar:P, arma, auto
+	Kind  NoiseKind
+	Order int // P for ar1 and ar:P
+	// MaxOrder is Pmax for auto, set from the repetition time by ForTR.
+	MaxOrder int
+	Pool     bool // one model per run from the averaged autocorrelation of all regions
 }
 
-// MaxAROrder is the largest P accepted by --noise ar:P.
+// MaxAROrder is the largest P accepted by --noise ar:P, and the largest
+// order auto considers.
 const MaxAROrder = 8
 
-// ParseNoise reads a --noise value: none, ar1 or ar:P with P in 1..8.
+// DefaultNoise is the --noise default.
+const DefaultNoise = "auto"
+
+// ParseNoise reads a --noise value: none, ar1, ar:P with P in 1..8, arma or
+// auto (also the empty string).
 func ParseNoise(s string) (NoiseModel, error) {
 	switch {
 	case s == "none":
-		return NoiseModel{Name: s}, nil
+		return NoiseModel{Name: s, Kind: NoiseOLS}, nil
 	case s == "ar1":
-		return NoiseModel{Name: s, Order: 1}, nil
+		return NoiseModel{Name: s, Kind: NoiseAR, Order: 1}, nil
+	case s == "arma":
+		return NoiseModel{Name: s, Kind: NoiseARMA}, nil
+	case s == "auto" || s == "":
+		return NoiseModel{Name: "auto", Kind: NoiseAuto}, nil
 	case strings.HasPrefix(s, "ar:"):
 		p, err := strconv.Atoi(s[3:])
 		if err == nil && p >= 1 && p <= MaxAROrder {
-			return NoiseModel{Name: s, Order: p}, nil
+			return NoiseModel{Name: s, Kind: NoiseAR, Order: p}, nil
 		}
 	}
-	return NoiseModel{}, fmt.Errorf("--noise %q: expected none, ar1 or ar:P with P from 1 to %d", s, MaxAROrder)
+	return NoiseModel{}, fmt.Errorf("--noise %q: expected none, ar1, ar:P with P from 1 to %d, arma or auto", s, MaxAROrder)
+}
+
+// autoSpan is the stretch of time the AR orders considered by auto should
+// cover: the autocorrelation of fMRI noise extends over several seconds, so
+// the largest order is the number of volumes in about 7 s (6-8 s for most
+// TRs).
+const autoSpan = 7.0
+
+// AutoMaxOrder returns Pmax for a repetition time of tr seconds:
+// round(7 s / tr), at least 1 and at most MaxAROrder (8 at TR 0.8 s, 4 at
+// 2 s, 2 at 3 s).
+func AutoMaxOrder(tr float64) int {
+	if !(tr > 0) {
+		return MaxAROrder
+	}
+	return max(1, min(MaxAROrder, int(math.Round(autoSpan/tr))))
+}
+
+// Resolve fills Kind for a model written as a literal with only Name and
+// Order: a known Name is parsed; otherwise Order > 0 is AR(Order) and 0
+// ordinary least squares.
+func (m NoiseModel) Resolve() NoiseModel {
+	if m.Kind != NoiseUnset {
+		return m
+	}
+	if p, err := ParseNoise(m.Name); err == nil && m.Name != "" {
+		p.MaxOrder, p.Pool = m.MaxOrder, m.Pool
+		return p
+	}
+	switch {
+	case m.Order == 1:
+		m.Kind, m.Name = NoiseAR, "ar1"
+	case m.Order > 1:
+		m.Kind, m.Name = NoiseAR, fmt.Sprintf("ar:%d", m.Order)
+	default:
+		m.Kind, m.Name = NoiseOLS, "none"
+	}
+	return m
+}
+
+// ForTR returns the model with Pmax set for repetition time tr (a no-op
+// for models other than auto).
+func (m NoiseModel) ForTR(tr float64) NoiseModel {
+	if m.Kind == NoiseAuto {
+		m.MaxOrder = AutoMaxOrder(tr)
+	}
+	return m
 }
 
 // ARAutocovariance returns g_0..g_P, the autocovariances of the stationary
-// AR(P) process with coefficients a and unit innovation variance, from the
-// Yule-Walker equations
+// AR(P) process with coefficients a and unit innovation variance, the
+// solution of the Yule-Walker equations
 //
 //	g_k = sum_i a_i g_|k-i|  (k = 1..P),   g_0 = sum_i a_i g_i + 1
 //
-// (Box, Jenkins and Reinsel 2008, §3.2). ok is false when the system is
-// singular or g_0 <= 0, which happens only outside the stationary region.
+// (Box, Jenkins and Reinsel 2008, §3.2). They are computed through the
+// reflection coefficients κ_p (the step-down recursion of a), which give
+// the autocorrelations order by order, ρ_p = κ_p v_{p-1} + sum_{i<p}
+// a^{(p-1)}_i ρ_{p-i} with v_p = prod_{i≤p} (1 - κ_i²), and g_0 = 1/v_P. ok
+// is false outside the stationary region (some |κ_p| ≥ 1).
 func ARAutocovariance(a []float64) (g []float64, ok bool) {
 	p := len(a)
-	m := mat.NewDense(p+1, p+1, nil)
-	rhs := mat.NewVecDense(p+1, nil)
-	rhs.SetVec(0, 1)
-	for k := 0; k <= p; k++ {
-		m.Set(k, k, m.At(k, k)+1)
-		for i := 1; i <= p; i++ {
-			lag := k - i
-			if lag < 0 {
-				lag = -lag
-			}
-			m.Set(k, lag, m.At(k, lag)-a[i-1])
+	// Step-down: reflection coefficients and the lower-order models.
+	models := make([][]float64, p+1)
+	models[p] = append([]float64(nil), a...)
+	kappa := make([]float64, p+1)
+	for k := p; k >= 1; k-- {
+		b := models[k]
+		kp := b[k-1]
+		if !(math.Abs(kp) < 1) {
+			return nil, false
 		}
+		kappa[k] = kp
+		d := 1 - kp*kp
+		nb := make([]float64, k-1)
+		for i := 1; i < k; i++ {
+			nb[i-1] = (b[i-1] + kp*b[k-i-1]) / d
+		}
+		models[k-1] = nb
 	}
-	var sol mat.VecDense
-	if err := sol.SolveVec(m, rhs); err != nil {
-		return nil, false
+	rho := make([]float64, p+1)
+	rho[0] = 1
+	v := 1.0
+	for k := 1; k <= p; k++ {
+		s := kappa[k] * v
+		prev := models[k-1]
+		for i := 1; i < k; i++ {
+			s += prev[i-1] * rho[k-i]
+		}
+		rho[k] = s
+		v *= 1 - kappa[k]*kappa[k]
 	}
 	g = make([]float64, p+1)
 	for k := range g {
-		g[k] = sol.AtVec(k)
+		g[k] = rho[k] / v
 	}
 	return g, g[0] > 0 && !math.IsNaN(g[0])
 }
@@ -185,6 +278,9 @@ type Whitener struct {
 	A    []float64
 	linv *mat.TriDense // L^-1, P×P lower triangular; nil for P = 0
 	G0   float64       // g_0, the marginal variance per unit innovation variance
+	// LogDet is log|V| per unit innovation variance, = log|G| = 2 sum
+	// log L_ii (the rows t ≥ P have unit variance), whatever the length.
+	LogDet float64
 }
 
 // NewWhitener prepares the transform for coefficients a, which must be
@@ -212,6 +308,9 @@ func NewWhitener(a []float64) (*Whitener, error) {
 	}
 	var l mat.TriDense
 	ch.LTo(&l)
+	for i := 0; i < p; i++ {
+		w.LogDet += 2 * math.Log(l.At(i, i))
+	}
 	w.linv = mat.NewTriDense(p, mat.Lower, nil)
 	if err := w.linv.InverseTri(&l); err != nil {
 		return nil, err
@@ -242,117 +341,4 @@ func (w *Whitener) Apply(dst, src []float64) {
 		}
 		dst[t] = s
 	}
-}
-
-// ResidualBias holds what the bias correction of residual autocovariances
-// needs from one design: the matrix M with
-//
-//	M_jk = w_k tr(R D_j R D_k),  j, k = 0..P,  w_0 = 1, w_k = 2,
-//
-// where R = I - X X⁺ forms residuals and D_j is the symmetric lag-j matrix
-// (½ on the ±j diagonals, D_0 = I). Worsley et al. (2002, NeuroImage
-// 15:1-15) show E[r'D_j r] = tr(R D_j R V); with V truncated at lag P,
-// V ≈ sum_k w_k g_k D_k, so the observed lag sums c_j = r'D_j r satisfy
-// E[c] ≈ M g and the corrected autocovariances are g = M^-1 c. M depends on
-// the design alone, so it is computed once per run and shared by all regions.
-type ResidualBias struct {
-	P  int
-	m  mat.Dense // LU-solvable (P+1)×(P+1)
-	lu mat.LU
-}
-
-// NewResidualBias computes M for the design x (n×k) and order p, in
-// O(p² n²) after forming R explicitly from a thin QR.
-func NewResidualBias(x *mat.Dense, p int) *ResidualBias {
-	n, k := x.Dims()
-	var qr mat.QR
-	qr.Factorize(x)
-	var q mat.Dense
-	qr.QTo(&q)
-	qk := q.Slice(0, n, 0, k)
-	r := mat.NewDense(n, n, nil)
-	r.Mul(qk, qk.T())
-	r.Scale(-1, r)
-	for i := 0; i < n; i++ {
-		r.Set(i, i, r.At(i, i)+1)
-	}
-	rr := r.RawMatrix()
-	at := func(i, j int) float64 {
-		if i < 0 || j < 0 || i >= n || j >= n {
-			return 0
-		}
-		return rr.Data[i*rr.Stride+j]
-	}
-	// (R D_j)_{ab} = ½(R_{a,b-j} + R_{a,b+j}) for j > 0; R for j = 0.
-	rdj := func(a, b, j int) float64 {
-		if j == 0 {
-			return at(a, b)
-		}
-		return 0.5 * (at(a, b-j) + at(a, b+j))
-	}
-	tr := mat.NewDense(p+1, p+1, nil)
-	for j := 0; j <= p; j++ {
-		for kk := j; kk <= p; kk++ {
-			s := 0.0
-			// tr(R D_j R D_k) = sum_ab (R D_j)_{ab} (R D_k)_{ba}.
-			for a := 0; a < n; a++ {
-				for b := 0; b < n; b++ {
-					s += rdj(a, b, j) * rdj(b, a, kk)
-				}
-			}
-			tr.Set(j, kk, s)
-			tr.Set(kk, j, s)
-		}
-	}
-	rb := &ResidualBias{P: p}
-	rb.m.ReuseAs(p+1, p+1)
-	for j := 0; j <= p; j++ {
-		for kk := 0; kk <= p; kk++ {
-			w := 2.0
-			if kk == 0 {
-				w = 1
-			}
-			rb.m.Set(j, kk, w*tr.At(j, kk))
-		}
-	}
-	rb.lu.Factorize(&rb.m)
-	return rb
-}
-
-// LagSums returns c_j = sum_t r_t r_{t+j} = r'D_j r for j = 0..p.
-func LagSums(r []float64, p int) []float64 {
-	c := make([]float64, p+1)
-	for j := 0; j <= p; j++ {
-		s := 0.0
-		for t := 0; t+j < len(r); t++ {
-			s += r[t] * r[t+j]
-		}
-		c[j] = s
-	}
-	return c
-}
-
-// Estimate returns bias-corrected AR(P) coefficients from residuals r of a
-// fit of this design: corrected autocovariances g = M^-1 c, then
-// Yule-Walker. The result is kept inside the stationary region (shrunk
-// toward zero, see shrinkToStationary); shrunk reports whether that was
-// needed.
-func (rb *ResidualBias) Estimate(r []float64) (a []float64, shrunk bool) {
-	c := LagSums(r, rb.P)
-	var g mat.VecDense
-	if err := rb.lu.SolveVecTo(&g, false, mat.NewVecDense(len(c), c)); err != nil || g.AtVec(0) <= 0 {
-		return make([]float64, rb.P), true
-	}
-	gs := make([]float64, rb.P+1)
-	for i := range gs {
-		gs[i] = g.AtVec(i)
-	}
-	a, ok := YuleWalker(gs)
-	if !ok {
-		shrunk = true
-	}
-	if shrinkToStationary(a) {
-		shrunk = true
-	}
-	return a, shrunk
 }

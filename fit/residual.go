@@ -37,26 +37,21 @@ func LjungBoxLag(n int) int {
 // from the chi-square distribution with h - fitdf degrees of freedom (fitdf
 // the number of fitted AR parameters), as R's Box.test(type = "Ljung-Box").
 func LjungBox(r []float64, h, fitdf int) (q, p float64) {
-	n := len(r)
+	if h < 1 || h-fitdf < 1 || len(r) <= h {
+		return math.NaN(), math.NaN()
+	}
+	return ljungBoxACF(Autocorrelation(r, h), len(r), fitdf)
+}
+
+// ljungBoxACF is LjungBox from the autocorrelations ρ̂_1..ρ̂_h of n
+// residuals.
+func ljungBoxACF(acf []float64, n, fitdf int) (q, p float64) {
+	h := len(acf)
 	if h < 1 || h-fitdf < 1 || n <= h {
 		return math.NaN(), math.NaN()
 	}
-	mean := 0.0
-	for _, v := range r {
-		mean += v
-	}
-	mean /= float64(n)
-	c0 := 0.0
-	for _, v := range r {
-		c0 += (v - mean) * (v - mean)
-	}
-	for k := 1; k <= h; k++ {
-		ck := 0.0
-		for t := k; t < n; t++ {
-			ck += (r[t] - mean) * (r[t-k] - mean)
-		}
-		rho := ck / c0
-		q += rho * rho / float64(n-k)
+	for k, rho := range acf {
+		q += rho * rho / float64(n-k-1)
 	}
 	q *= float64(n) * float64(n+2)
 	p = distuv.ChiSquared{K: float64(h - fitdf)}.Survival(q)

@@ -522,7 +522,7 @@ func fitPlanned(p *RunPlan, cs []Contrast, fts []FTest, noise NoiseModel) (*RunR
 	if err != nil {
 		return nil, err
 	}
-	f, err := FitRun(p.Design, p.Regions, y, noise)
+	f, err := FitRun(p.Design, p.Regions, y, noise.ForTR(p.TR))
 	if err != nil {
 		return nil, fmt.Errorf("run %s: %v", p.Run.Spec.Key(), err)
 	}

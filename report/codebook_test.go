@@ -51,7 +51,8 @@ func TestTablesMatchContract(t *testing.T) {
 		"estimates.csv":         "subject,session,run,region,term,estimate,std_error,statistic,df,p_value,psc",
 		"contrasts.csv":         "subject,session,run,region,contrast,estimate,std_error,statistic,df,p_value,q_value,psc",
 		"subject_contrasts.csv": "subject,region,contrast,runs,estimate,std_error,statistic,df,p_value,q_value,psc",
-		"diagnostics.csv":       "subject,session,run,region,volumes,censored,df,sigma,r_squared,noise,ar_order,ar_coefficients,durbin_watson,ljung_box_p,normality_p,tsnr",
+		"diagnostics.csv":       "subject,session,run,region,volumes,censored,df,sigma,r_squared,noise,ar_order,ar_coefficients,durbin_watson,ljung_box_p,normality_p,tsnr,ma_coefficients,white_share,noise_scope,noise_passes",
+		"autocorrelation.csv":   "subject,session,run,region,lag,raw,whitened",
 		// "Added with the design issue".
 		"motion.csv":    "subject,session,run,volume,fd,censored",
 		"audit.csv":     "subject,session,run,item,measure,value,flag",

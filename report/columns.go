@@ -80,18 +80,22 @@ var (
 		{"df", "residual degrees of freedom; empty when the region or run was not fitted", ""},
 		{"sigma", "standard deviation of the modelled noise (for AR models the marginal one, innovation sd · sqrt(g0))", "signal units"},
 		{"r_squared", "1 - residual sum of squares / total sum of squares about the mean, on the unwhitened signal", ""},
-		{"noise", "noise model: none, ar1 or ar:P; skipped:REASON when the region or run was not fitted", ""},
-		{"ar_order", "AR order P (0 for none)", ""},
-		{"ar_coefficients", "a_1 ... a_P of e_t = a_1 e_{t-1} + ... + a_P e_{t-P} + u_t, space-separated, bias-corrected", ""},
+		{"noise", "noise model the region was fitted with: none, ar1, ar:P or arma; under --noise auto the region's choice, auto:ar1, auto:ar:P or auto:arma; skipped:REASON when the region or run was not fitted", ""},
+		{"ar_order", "AR order P (0 for none; 1 for arma)", ""},
+		{"ar_coefficients", "a_1 ... a_P of e_t = a_1 e_{t-1} + ... + a_P e_{t-P} + u_t, space-separated, bias-corrected; for arma φ of e_t = φ e_{t-1} + u_t + θ u_{t-1}", ""},
 		{"durbin_watson", "Durbin-Watson statistic of the whitened residuals (about 2 when white)", ""},
-		{"ljung_box_p", "Ljung-Box p on the whitened residuals, lag min(10, volumes/5), df lag - P", ""},
+		{"ljung_box_p", "Ljung-Box p on the whitened residuals, lag min(10, volumes/5), df lag - (number of noise parameters: P, or 2 for arma)", ""},
 		{"normality_p", "Jarque-Bera p on the whitened residuals", ""},
 		{"tsnr", "baseline / sigma", ""},
+		{"ma_coefficients", "for arma, θ of e_t = φ e_{t-1} + u_t + θ u_{t-1}; empty for AR models", ""},
+		{"white_share", "for arma read as AR(1) plus white noise (θ between -φ and 0): the share of the noise variance that is white, 1 - ρ_1/φ; empty otherwise", ""},
+		{"noise_scope", "region (the model was estimated from this region) or run (--noise-pool: one model from all regions of the run)", ""},
+		{"noise_passes", "estimation passes until the modelled autocorrelation moved by less than 0.1/sqrt(volumes) (at most 8); for arma, evaluations of the REML deviance", ""},
 	}}
 )
 
 // Tables lists every table a first-level fit writes, in codebook order.
-var Tables = []TableDef{Estimates, Contrasts, SubjectContrasts, Diagnostics, Motion, AuditTable, FTests, Responses}
+var Tables = []TableDef{Estimates, Contrasts, SubjectContrasts, Diagnostics, Motion, AuditTable, FTests, Responses, Autocorrelation}
 
 // CodebookMarkdown renders the output codebook: one section per table with
 // every column's meaning and unit.

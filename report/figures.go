@@ -540,7 +540,7 @@ func autocorr(e []float64, lags int) []float64 {
 
 // autocorrelation draws the residual autocorrelation of one pick before
 // whitening (y - Xβ) and after (the same residuals passed through the
-// region's AR whitener, fit.NewWhitener).
+// region's whitener, RegionFit.NoiseWhitener).
 func (fw *figureWriter) autocorrelation(pk pick) {
 	r := pk.run
 	ys, err := r.Plan.Signals()
@@ -553,7 +553,7 @@ func (fw *figureWriter) autocorrelation(pk pick) {
 	for t := range y {
 		raw[t] = y[t] - yhat[t]
 	}
-	white, err := fit.NewWhitener(pk.region.AR)
+	white, err := pk.region.NoiseWhitener(len(raw))
 	if err != nil {
 		fw.err = fmt.Errorf("figure of region %s: %v", pk.region.Region, err)
 		return
@@ -573,6 +573,9 @@ func (fw *figureWriter) autocorrelation(pk pick) {
 			cs[i] = fmt.Sprintf("%.2f", a)
 		}
 		model = fmt.Sprintf("AR(%d) coefficients %s", len(pk.region.AR), strings.Join(cs, ", "))
+		if len(pk.region.MA) > 0 {
+			model = fmt.Sprintf("ARMA(1,1) φ %.2f, θ %.2f", pk.region.AR[0], pk.region.MA[0])
+		}
 	}
 	p := newPlot(fmt.Sprintf("Residual autocorrelation: run %s, region %s (%s)", key, pk.region.Region, model), "lag (volumes)", "autocorrelation")
 	width := vg.Points(14)

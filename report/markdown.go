@@ -102,12 +102,7 @@ func Markdown(res *fit.StudyResult, info ReportInfo) string {
 	} else {
 		p("- Drift: none (--highpass 0)\n")
 	}
-	p("- Noise: `%s`", o.Noise.Name)
-	if o.Noise.Order > 0 {
-		p(" (AR(%d) per region from bias-corrected residual autocorrelation, exact GLS, estimated twice)", o.Noise.Order)
-	} else {
-		p(" (ordinary least squares)")
-	}
+	p("- Noise: `%s`%s", o.Noise.Name, noiseSummary(res))
 	p("\n- Contrasts: ")
 	var cs []string
 	for _, c := range res.Contrasts {
@@ -204,7 +199,7 @@ func Markdown(res *fit.StudyResult, info ReportInfo) string {
 			fitted++
 			id := r.Plan.Run.Spec.Key() + " " + reg.Region
 			if reg.LjungBoxP < FlagLjungBox {
-				auto = append(auto, id)
+				auto = append(auto, id+" ("+reg.NoiseName+")")
 			}
 			if reg.NormalityP < FlagNormality {
 				nonNormal = append(nonNormal, id)
@@ -231,7 +226,7 @@ func Markdown(res *fit.StudyResult, info ReportInfo) string {
 		p("\n")
 	}
 	flag(fmt.Sprintf("whitened residuals still autocorrelated (Ljung-Box p < %g)", FlagLjungBox),
-		"The noise model leaves structure: try a higher AR order (--noise ar:P), check drift (--highpass) and motion terms; p values of these regions are likely too small.", auto)
+		ljungBoxAdvice(res.Options.Noise), auto)
 	flag(fmt.Sprintf("clearly non-normal residuals (Jarque-Bera p < %g)", FlagNormality),
 		"Often spikes from motion or artefacts: look at the time course and consider confound terms for the affected volumes.", nonNormal)
 	flag(fmt.Sprintf("low temporal SNR (baseline / sigma < %g)", FlagTSNR),

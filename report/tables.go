@@ -71,13 +71,13 @@ func WriteTables(out *Output, res *fit.StudyResult) error {
 		n := rr.Plan.Volumes
 		if rr.Fit == nil {
 			for _, name := range rr.Plan.Regions {
-				diag.row(s.Subject, s.Session, s.Run, name, strconv.Itoa(n), "0", "", "", "", "skipped:too few volumes", "", "", "", "", "", "")
+				diag.row(s.Subject, s.Session, s.Run, name, strconv.Itoa(n), "0", "", "", "", "skipped:too few volumes", "", "", "", "", "", "", "", "", "", "")
 			}
 			continue
 		}
 		for _, reg := range rr.Fit.Regions {
 			if reg.Skip != "" {
-				diag.row(s.Subject, s.Session, s.Run, reg.Region, strconv.Itoa(n), strconv.Itoa(d.CensoredCount()), "", "", "", "skipped:"+reg.Skip, "", "", "", "", "", "")
+				diag.row(s.Subject, s.Session, s.Run, reg.Region, strconv.Itoa(n), strconv.Itoa(d.CensoredCount()), "", "", "", "skipped:"+reg.Skip, "", "", "", "", "", "", "", "", "", "")
 				continue
 			}
 			for j, term := range d.Terms {
@@ -94,10 +94,14 @@ func WriteTables(out *Output, res *fit.StudyResult) error {
 			for i, a := range reg.AR {
 				coefs[i] = Num(a)
 			}
+			ma := make([]string, len(reg.MA))
+			for i, v := range reg.MA {
+				ma[i] = Num(v)
+			}
 			diag.row(s.Subject, s.Session, s.Run, reg.Region, strconv.Itoa(n), strconv.Itoa(d.CensoredCount()), strconv.Itoa(reg.DF),
-				Num(reg.Sigma), Num(reg.RSquared), rr.Fit.Noise.Name, strconv.Itoa(rr.Fit.Noise.Order),
+				Num(reg.Sigma), Num(reg.RSquared), reg.NoiseName, strconv.Itoa(len(reg.AR)),
 				strings.Join(coefs, " "), Num(reg.DurbinWatson), Num(reg.LjungBoxP), Num(reg.NormalityP),
-				Num(reg.Baseline/reg.Sigma))
+				Num(reg.Baseline/reg.Sigma), strings.Join(ma, " "), Num(reg.WhiteShare), reg.NoiseScope, strconv.Itoa(reg.NoisePasses))
 		}
 		for ci, c := range res.Contrasts {
 			if !rr.Valid[ci] {
@@ -125,6 +129,9 @@ func WriteTables(out *Output, res *fit.StudyResult) error {
 		if err := t.close(); err != nil {
 			return err
 		}
+	}
+	if err := writeAutocorrelation(out, res); err != nil {
+		return err
 	}
 	return WriteDesignTables(out, res)
 }

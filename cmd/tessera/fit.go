@@ -120,7 +120,7 @@ func fitStudy(ctx context.Context, fs *flag.FlagSet, m *modelFlags, args []strin
 	if err != nil {
 		return nil, err
 	}
-	files := []string{"report.md", "estimates.csv", "contrasts.csv", "subject_contrasts.csv", "diagnostics.csv", "design/", "figures/", "provenance.json"}
+	files := []string{"report.md", "estimates.csv", "contrasts.csv", "subject_contrasts.csv", "diagnostics.csv", "autocorrelation.csv", "design/", "figures/", "provenance.json"}
 	if err := report.WriteTables(outp, res); err != nil {
 		outp.Abort()
 		return nil, err

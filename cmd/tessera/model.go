@@ -26,6 +26,7 @@ type modelFlags struct {
 	hrf       string
 	highpass  float64
 	noise     string
+	noisePool bool
 	contrasts []string
 	motion    []string
 	confounds []string
@@ -59,7 +60,8 @@ func (m *modelFlags) register(fs *flag.FlagSet) {
 	fs.Float64Var(&m.sliceRef, "slice-ref", 0.5, "when within each volume the model is sampled, as a fraction of TR")
 	fs.StringVar(&m.hrf, "hrf", fit.HRFDoubleGamma, "response model")
 	fs.Float64Var(&m.highpass, "highpass", 128, "cosine drift terms for periods longer than this many seconds; 0 for none")
-	fs.StringVar(&m.noise, "noise", "ar1", "noise model: none, ar1 or ar:P (P = 1..8)")
+	fs.StringVar(&m.noise, "noise", fit.DefaultNoise, "noise model: auto (per region the AIC choice among AR(1..Pmax) and AR(1)+white), none, ar1, ar:P (P = 1..8) or arma (AR(1)+white by REML)")
+	fs.BoolVar(&m.noisePool, "noise-pool", false, "estimate one noise model per run from all regions (for short runs)")
 	fs.StringArrayVar(&m.contrasts, "contrast", nil, "contrast 'NAME = EXPR', e.g. 'ordered - jumbled' (repeatable; default one per condition)")
 	fs.StringSliceVar(&m.motion, "motion", nil, "the six motion columns of the confounds table (default tx,ty,tz,rx,ry,rz where all exist)")
 	fs.StringSliceVar(&m.confounds, "confounds", nil, "further confound columns to model, comma-separated")
@@ -91,6 +93,7 @@ func (m *modelFlags) options() (fit.Options, error) {
 	if o.Noise, err = fit.ParseNoise(m.noise); err != nil {
 		return o, usagef("%v", err)
 	}
+	o.Noise.Pool = m.noisePool
 	switch m.hrf {
 	case fit.HRFDoubleGamma, fit.HRFGamma:
 		if m.firWindow != 0 || m.firBins != 0 {

@@ -24,15 +24,17 @@ var (
 	contractSubjectContrasts = []string{"subject", "region", "contrast", "runs", "estimate", "std_error",
 		"statistic", "df", "p_value", "q_value", "psc"}
 	contractDiagnostics = []string{"subject", "session", "run", "region", "volumes", "censored", "df", "sigma",
-		"r_squared", "noise", "ar_order", "ar_coefficients", "durbin_watson", "ljung_box_p", "normality_p", "tsnr"}
+		"r_squared", "noise", "ar_order", "ar_coefficients", "durbin_watson", "ljung_box_p", "normality_p", "tsnr",
+		// Added at the end by the noise issue.
+		"ma_coefficients", "white_share", "noise_scope", "noise_passes"}
 )
 
 // textColumns hold labels; every other column is numeric.
 var textColumns = map[string]bool{"subject": true, "session": true, "run": true, "region": true,
-	"term": true, "contrast": true, "noise": true, "ar_coefficients": true}
+	"term": true, "contrast": true, "noise": true, "ar_coefficients": true, "ma_coefficients": true, "noise_scope": true}
 
 // intColumns hold counts.
-var intColumns = map[string]bool{"df": true, "runs": true, "volumes": true, "censored": true, "ar_order": true}
+var intColumns = map[string]bool{"df": true, "runs": true, "volumes": true, "censored": true, "ar_order": true, "noise_passes": true}
 
 func readJSON(t *testing.T, path string, v any) {
 	t.Helper()
@@ -284,11 +286,16 @@ func TestFitOutputsContract(t *testing.T) {
 			}
 			continue
 		}
-		if r["noise"] != "ar1" || r["ar_order"] != "1" {
-			t.Errorf("diagnostics.csv row %d: noise %q, ar_order %q; want ar1, 1", i+2, r["noise"], r["ar_order"])
+		// The default noise model is auto: the region's choice, its AR
+		// order matching its coefficients, each inside (-1, 1).
+		coefs := strings.Fields(r["ar_coefficients"])
+		if !strings.HasPrefix(r["noise"], "auto:") || r["ar_order"] != strconv.Itoa(len(coefs)) || len(coefs) == 0 {
+			t.Errorf("diagnostics.csv row %d: noise %q, ar_order %q, ar_coefficients %q; want auto:MODEL with matching order", i+2, r["noise"], r["ar_order"], r["ar_coefficients"])
 		}
-		if a, ok := parseNumber(r["ar_coefficients"]); !ok || math.Abs(a) >= 1 {
-			t.Errorf("diagnostics.csv row %d: ar_coefficients %q; want one coefficient inside (-1, 1)", i+2, r["ar_coefficients"])
+		for _, c := range coefs {
+			if a, ok := parseNumber(c); !ok || math.Abs(a) >= 1 {
+				t.Errorf("diagnostics.csv row %d: ar_coefficients %q; want coefficients inside (-1, 1)", i+2, r["ar_coefficients"])
+			}
 		}
 		if want := strconv.Itoa(120 - len(designs[k])); r["df"] != want {
 			t.Errorf("diagnostics.csv row %d: df %s; want %s", i+2, r["df"], want)
@@ -338,7 +345,7 @@ func TestFitOutputsContract(t *testing.T) {
 	if len(missing) > 0 {
 		t.Errorf("provenance.json options lack %q", missing)
 	}
-	if prov.Options["output"] != out || prov.Options["noise"] != "ar1" || prov.Options["highpass"] != "128" {
+	if prov.Options["output"] != out || prov.Options["noise"] != "auto" || prov.Options["highpass"] != "128" {
 		t.Errorf("provenance.json options output %q, noise %q, highpass %q", prov.Options["output"], prov.Options["noise"], prov.Options["highpass"])
 	}
 	wantInputs := []string{study}

@@ -24,4 +24,6 @@ $PY gls.py "$out"
 $PY design/legendre.py "$out/design"
 # group/: t.test, lm, p.adjust, metafor::rma (REML, Knapp-Hartung), power.t.test, pt, qt
 "$RS" group/group.R "$out/group"
+# noise/: ar.yw, ar.mle, arima (ML), ar(aic = TRUE), nlme::gls corARMA(1,1) REML
+"$RS" noise/noise.R "$out/noise"
 echo "reference outputs written to $out"

@@ -1,0 +1,354 @@
+package fit
+
+import (
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/lapack/lapack64"
+	"gonum.org/v1/gonum/mat"
+)
+
+// fastPathCondition is the condition number of the equilibrated design
+// below which the many-regions path solves the GLS normal equations: they
+// are formed in the orthonormal basis Q of the design (X = QR), where
+// Q'V^-1Q has the condition number of V alone, and R enters only through
+// triangular solves, so the accuracy is that of QR up to this bound (checked
+// against per-region QR in TestFastPathAgreesWithQR). Above it every region
+// is fitted by its own QR of the whitened design.
+const fastPathCondition = 1e4
+
+// runBasis is what every region of a run shares: the thin QR of the design,
+// X = Q R with Q'Q = I, and the lagged cross-products of Q,
+//
+//	lag_d = K_d + K_d',  K_d = sum_t q_t q_{t+d}'  (q_t the t-th row of Q),
+//
+// so that Q'D_dQ = lag_d / 2 for the symmetric lag-d matrix D_d and, for any
+// Toeplitz matrix, Q'Toep(v)Q = v_0 I + sum_d v_d lag_d (METHODS.md, "Many
+// regions, one design": computed once per run, O(D n k²)).
+type runBasis struct {
+	n, k int
+	q    []float64   // n×k, row-major
+	r    []float64   // k×k upper triangular
+	rinv []float64   // R^-1, upper triangular
+	cond float64     // condition number of the design with unit-length columns
+	fast bool        // cond < fastPathCondition
+	lag  [][]float64 // lag[d], k×k, d ≥ 1; lag[0] is nil (K_0 = I)
+}
+
+// newRunBasis factorises the design: Householder QR of the equilibrated
+// columns (LAPACK dgeqrf/dorgqr), R rescaled to the original columns.
+func newRunBasis(x *mat.Dense) (*runBasis, error) {
+	n, k := x.Dims()
+	if n <= k {
+		return nil, fmt.Errorf("%d observations cannot estimate %d terms", n, k)
+	}
+	b := &runBasis{n: n, k: k, q: make([]float64, n*k)}
+	norms := make([]float64, k)
+	for j := 0; j < k; j++ {
+		s := 0.0
+		for t := 0; t < n; t++ {
+			v := x.At(t, j)
+			s += v * v
+		}
+		norms[j] = math.Sqrt(s)
+		if norms[j] == 0 {
+			return nil, fmt.Errorf("design is rank-deficient at column %d", j+1)
+		}
+	}
+	for t := 0; t < n; t++ {
+		for j := 0; j < k; j++ {
+			b.q[t*k+j] = x.At(t, j) / norms[j]
+		}
+	}
+	a := blas64.General{Rows: n, Cols: k, Stride: k, Data: b.q}
+	tau := make([]float64, k)
+	work := make([]float64, 1)
+	lapack64.Geqrf(a, tau, work, -1)
+	work = make([]float64, int(work[0]))
+	lapack64.Geqrf(a, tau, work, len(work))
+	req := mat.NewDense(k, k, nil)
+	for i := 0; i < k; i++ {
+		for j := i; j < k; j++ {
+			req.Set(i, j, b.q[i*k+j])
+		}
+	}
+	work = make([]float64, 1)
+	lapack64.Orgqr(a, tau, work, -1)
+	work = make([]float64, int(work[0]))
+	lapack64.Orgqr(a, tau, work, len(work))
+
+	big := 0.0
+	for i := 0; i < k; i++ {
+		big = math.Max(big, math.Abs(req.At(i, i)))
+	}
+	tol := rankTolerance(n, k) * big
+	for i := 0; i < k; i++ {
+		if math.Abs(req.At(i, i)) <= tol {
+			return nil, fmt.Errorf("design is rank-deficient at column %d", i+1)
+		}
+	}
+	var svd mat.SVD
+	if !svd.Factorize(req, mat.SVDNone) {
+		return nil, fmt.Errorf("design: singular value decomposition failed")
+	}
+	sv := svd.Values(nil)
+	b.cond = sv[0] / sv[len(sv)-1]
+	b.fast = b.cond < fastPathCondition
+
+	b.r = make([]float64, k*k)
+	for i := 0; i < k; i++ {
+		for j := i; j < k; j++ {
+			b.r[i*k+j] = req.At(i, j) * norms[j]
+		}
+	}
+	b.rinv = make([]float64, k*k)
+	for j := k - 1; j >= 0; j-- {
+		b.rinv[j*k+j] = 1 / b.r[j*k+j]
+		for i := j - 1; i >= 0; i-- {
+			s := 0.0
+			for p := i + 1; p <= j; p++ {
+				s += b.r[i*k+p] * b.rinv[p*k+j]
+			}
+			b.rinv[i*k+j] = -s / b.r[i*k+i]
+		}
+	}
+	b.lag = [][]float64{nil}
+	return b, nil
+}
+
+// ensureLags computes lag_d up to d = D (at most n-1).
+func (b *runBasis) ensureLags(D int) {
+	n, k := b.n, b.k
+	D = min(D, n-1)
+	for d := len(b.lag); d <= D; d++ {
+		kd := make([]float64, k*k)
+		lo := blas64.General{Rows: n - d, Cols: k, Stride: k, Data: b.q[:(n-d)*k]}
+		hi := blas64.General{Rows: n - d, Cols: k, Stride: k, Data: b.q[d*k:]}
+		blas64.Gemm(blas.Trans, blas.NoTrans, 1, lo, hi, 0, blas64.General{Rows: k, Cols: k, Stride: k, Data: kd})
+		for i := 0; i < k; i++ {
+			for j := i; j < k; j++ {
+				s := kd[i*k+j] + kd[j*k+i]
+				kd[i*k+j], kd[j*k+i] = s, s
+			}
+		}
+		b.lag = append(b.lag, kd)
+	}
+}
+
+// qrow is the t-th row of Q.
+func (b *runBasis) qrow(t int) []float64 { return b.q[t*b.k : (t+1)*b.k] }
+
+// beta returns R^-1 γ: the coefficients of the design's own columns from
+// those of Q.
+func (b *runBasis) beta(gamma []float64) []float64 {
+	k := b.k
+	beta := make([]float64, k)
+	for i := 0; i < k; i++ {
+		s := 0.0
+		for j := i; j < k; j++ {
+			s += b.rinv[i*k+j] * gamma[j]
+		}
+		beta[i] = s
+	}
+	return beta
+}
+
+// cov returns s2 R^-1 C R^-T for a k×k symmetric C (the covariance of the
+// Q coefficients per unit variance) as the covariance of β.
+func (b *runBasis) cov(c []float64, s2 float64) *mat.SymDense {
+	k := b.k
+	// M = R^-1 C (R^-1 upper triangular).
+	m := make([]float64, k*k)
+	for i := 0; i < k; i++ {
+		for j := 0; j < k; j++ {
+			s := 0.0
+			for p := i; p < k; p++ {
+				s += b.rinv[i*k+p] * c[p*k+j]
+			}
+			m[i*k+j] = s
+		}
+	}
+	out := mat.NewSymDense(k, nil)
+	for i := 0; i < k; i++ {
+		for j := i; j < k; j++ {
+			// (M R^-T)_ij = sum_p M_ip (R^-1)_jp, p ≥ j.
+			s := 0.0
+			for p := j; p < k; p++ {
+				s += m[i*k+p] * b.rinv[j*k+p]
+			}
+			out.SetSym(i, j, s2*s)
+		}
+	}
+	return out
+}
+
+// covFromFactor returns s2 R^-1 A^-1 R^-T from W = L^-1 (A = L L', W
+// lower triangular): with G = R^-1 W' (upper triangular) it is s2 G G',
+// two triangular products of k³/6 each.
+func (b *runBasis) covFromFactor(linv []float64, s2 float64) *mat.SymDense {
+	k := b.k
+	g := make([]float64, k*k)
+	for i := 0; i < k; i++ {
+		for j := i; j < k; j++ {
+			// G_ij = sum_{p=i..j} (R^-1)_ip W_jp.
+			s := 0.0
+			ri := b.rinv[i*k : (i+1)*k]
+			wj := linv[j*k : (j+1)*k]
+			for p := i; p <= j; p++ {
+				s += ri[p] * wj[p]
+			}
+			g[i*k+j] = s
+		}
+	}
+	out := mat.NewSymDense(k, nil)
+	raw := out.RawSymmetric()
+	for i := 0; i < k; i++ {
+		gi := g[i*k : (i+1)*k]
+		for j := i; j < k; j++ {
+			gj := g[j*k : (j+1)*k]
+			raw.Data[i*raw.Stride+j] = s2 * vdot(gi[j:], gj[j:])
+		}
+	}
+	return out
+}
+
+// olsCorrection is the bias correction of autocovariances estimated from
+// OLS residuals r = R y, R = I - QQ' (Worsley et al. 2002, NeuroImage
+// 15:1-15): with the noise covariance truncated at lag L, V ≈ sum_k w_k g_k
+// D_k (w_0 = 1, w_k = 2), the lag sums c_j = r'D_j r have expectation
+//
+//	E[c_j] = sum_k w_k g_k m_jk,   m_jk = tr(R D_j R D_k)
+//	       = tr(D_j D_k) - 2 tr(Q'D_j D_k Q) + tr(Q'D_jQ · Q'D_kQ),
+//
+// with tr(D_j D_k) = n (j = k = 0), (n-j)/2 (j = k > 0), 0 otherwise. The
+// (L+1)×(L+1) matrix depends on the design alone and is inverted once per
+// run; the corrected autocovariances of a region are g = M^-1 c. This is the
+// first pass only: later passes use the exact correction for GLS residuals
+// (see correctGLS), so the truncation at L does not remain in the estimate.
+type olsCorrection struct {
+	lags int
+	minv []float64 // (L+1)×(L+1)
+}
+
+func (b *runBasis) olsCorrection(L int) (*olsCorrection, error) {
+	n, k := b.n, b.k
+	b.ensureLags(L)
+	L = min(L, len(b.lag)-1)
+	// D_j Q for j = 0..L.
+	dq := make([][]float64, L+1)
+	for j := 0; j <= L; j++ {
+		m := make([]float64, n*k)
+		for t := 0; t < n; t++ {
+			row := m[t*k : (t+1)*k]
+			if j == 0 {
+				copy(row, b.qrow(t))
+				continue
+			}
+			if t-j >= 0 {
+				for c, v := range b.qrow(t - j) {
+					row[c] += 0.5 * v
+				}
+			}
+			if t+j < n {
+				for c, v := range b.qrow(t + j) {
+					row[c] += 0.5 * v
+				}
+			}
+		}
+		dq[j] = m
+	}
+	// tr(Q'D_jQ · Q'D_kQ), Q'D_0Q = I, Q'D_jQ = lag_j/2.
+	trKK := func(j, kk int) float64 {
+		switch {
+		case j == 0 && kk == 0:
+			return float64(k)
+		case j == 0:
+			return traceOf(b.lag[kk], k) / 2
+		case kk == 0:
+			return traceOf(b.lag[j], k) / 2
+		}
+		return vdot(b.lag[j], b.lag[kk]) / 4
+	}
+	m := mat.NewDense(L+1, L+1, nil)
+	for j := 0; j <= L; j++ {
+		for kk := j; kk <= L; kk++ {
+			tdd := 0.0
+			switch {
+			case j == 0 && kk == 0:
+				tdd = float64(n)
+			case j == kk:
+				tdd = float64(n-j) / 2
+			}
+			v := tdd - 2*vdot(dq[j], dq[kk]) + trKK(j, kk)
+			wj, wk := 2.0, 2.0
+			if j == 0 {
+				wj = 1
+			}
+			if kk == 0 {
+				wk = 1
+			}
+			m.Set(j, kk, wk*v)
+			m.Set(kk, j, wj*v)
+		}
+	}
+	var inv mat.Dense
+	if err := inv.Inverse(m); err != nil {
+		return nil, fmt.Errorf("bias correction of the noise model: %v", err)
+	}
+	c := &olsCorrection{lags: L, minv: make([]float64, (L+1)*(L+1))}
+	for i := 0; i <= L; i++ {
+		for j := 0; j <= L; j++ {
+			c.minv[i*(L+1)+j] = inv.At(i, j)
+		}
+	}
+	return c, nil
+}
+
+func traceOf(a []float64, k int) float64 {
+	s := 0.0
+	for i := 0; i < k; i++ {
+		s += a[i*k+i]
+	}
+	return s
+}
+
+// correct returns the corrected autocovariances M^-1 c.
+func (c *olsCorrection) correct(dst, lagsum []float64) []float64 {
+	L := c.lags
+	dst = dst[:0]
+	for i := 0; i <= L; i++ {
+		dst = append(dst, vdot(c.minv[i*(L+1):(i+1)*(L+1)], lagsum[:L+1]))
+	}
+	return dst
+}
+
+// correctGLS returns corrected autocovariances from the lag sums c of GLS
+// residuals r = y - Xβ̂, β̂ the GLS estimate under a covariance s²V_1. When
+// V_1 is the noise's correlation, E[r r'] = s²V_1 - X Cov(β̂) X' exactly, so
+//
+//	E[c_j] = (n - j) g_j - s² tr((Q'V_1^-1 Q)^-1 Q'D_jQ),
+//
+// and g_j = (c_j + s² t_j) / (n - j). Iterating estimation and whitening
+// makes this an unbiased estimating equation at its fixed point, with no
+// truncation of V (the lag sums of the residuals of a fit of the design
+// under the estimated covariance match their expectation under it).
+func (b *runBasis) correctGLS(dst, lagsum, ainv []float64, s2 float64) []float64 {
+	n, k := b.n, b.k
+	dst = dst[:0]
+	for j, c := range lagsum {
+		var t float64
+		if j == 0 {
+			t = traceOf(ainv, k)
+		} else {
+			// tr(A^-1 lag_j)/2 over the lower triangle (both symmetric).
+			lj := b.lag[j]
+			for i := 0; i < k; i++ {
+				t += vdot(ainv[i*k:i*k+i], lj[i*k:i*k+i]) + 0.5*ainv[i*k+i]*lj[i*k+i]
+			}
+		}
+		dst = append(dst, (c+s2*t)/float64(n-j))
+	}
+	return dst
+}

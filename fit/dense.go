@@ -1,0 +1,142 @@
+package fit
+
+import "math"
+
+// Small dense kernels on row-major k×k matrices held in []float64, for the
+// per-region work of the many-regions path, where allocating gonum values
+// for every region would cost more than the arithmetic.
+
+// cholesky overwrites the lower triangle of a (k×k, symmetric, upper
+// triangle ignored) with L, a = L L'. It reports false when a is not
+// positive definite to working precision.
+func cholesky(a []float64, k int) bool {
+	for j := 0; j < k; j++ {
+		rj := a[j*k : j*k+k]
+		s := rj[j]
+		for p := 0; p < j; p++ {
+			s -= rj[p] * rj[p]
+		}
+		if !(s > 0) {
+			return false
+		}
+		d := math.Sqrt(s)
+		rj[j] = d
+		for i := j + 1; i < k; i++ {
+			ri := a[i*k : i*k+k]
+			s := ri[j]
+			for p := 0; p < j; p++ {
+				s -= ri[p] * rj[p]
+			}
+			ri[j] = s / d
+		}
+	}
+	return true
+}
+
+// cholLogDet is log|a| from its Cholesky factor.
+func cholLogDet(l []float64, k int) float64 {
+	s := 0.0
+	for i := 0; i < k; i++ {
+		s += math.Log(l[i*k+i])
+	}
+	return 2 * s
+}
+
+// cholSolve solves (L L') x = b in place.
+func cholSolve(l []float64, k int, b []float64) {
+	for i := 0; i < k; i++ {
+		s := b[i]
+		ri := l[i*k : i*k+i]
+		for p, v := range ri {
+			s -= v * b[p]
+		}
+		b[i] = s / l[i*k+i]
+	}
+	for i := k - 1; i >= 0; i-- {
+		s := b[i]
+		for p := i + 1; p < k; p++ {
+			s -= l[p*k+i] * b[p]
+		}
+		b[i] = s / l[i*k+i]
+	}
+}
+
+// cholInverse writes (L L')^-1 into inv (k×k, full) and W = L^-1 (lower
+// triangular, row-major) into w: inv = W'W = sum_p w_p' w_p over the rows
+// w_p of W. W is built row by row, w_i = (e_i - sum_{p<i} L_ip w_p) / L_ii;
+// every inner loop runs along a row.
+func cholInverse(l []float64, k int, inv, w []float64) {
+	clear(w[:k*k])
+	clear(inv[:k*k])
+	for i := 0; i < k; i++ {
+		wi := w[i*k : i*k+i+1]
+		li := l[i*k : i*k+i]
+		for p, c := range li {
+			if c == 0 {
+				continue
+			}
+			axpy(wi[:p+1], -c, w[p*k:p*k+p+1])
+		}
+		wi[i] = 1
+		d := 1 / l[i*k+i]
+		for j := range wi {
+			wi[j] *= d
+		}
+		// Row i of W adds w_i' w_i to the lower triangle of inv.
+		for a, va := range wi {
+			if va != 0 {
+				axpy(inv[a*k:a*k+a+1], va, wi[:a+1])
+			}
+		}
+	}
+	for a := 0; a < k; a++ {
+		for b := a + 1; b < k; b++ {
+			inv[a*k+b] = inv[b*k+a]
+		}
+	}
+}
+
+// axpy sets y += a x (len(y) = len(x)), unrolled by four.
+func axpy(y []float64, a float64, x []float64) {
+	x = x[:len(y)]
+	i := 0
+	for ; i+3 < len(y); i += 4 {
+		y[i] += a * x[i]
+		y[i+1] += a * x[i+1]
+		y[i+2] += a * x[i+2]
+		y[i+3] += a * x[i+3]
+	}
+	for ; i < len(y); i++ {
+		y[i] += a * x[i]
+	}
+}
+
+// vdot returns sum x_i y_i with four accumulators.
+func vdot(x, y []float64) float64 {
+	y = y[:len(x)]
+	var s0, s1, s2, s3 float64
+	i := 0
+	for ; i+3 < len(x); i += 4 {
+		s0 += x[i] * y[i]
+		s1 += x[i+1] * y[i+1]
+		s2 += x[i+2] * y[i+2]
+		s3 += x[i+3] * y[i+3]
+	}
+	for ; i < len(x); i++ {
+		s0 += x[i] * y[i]
+	}
+	return (s0 + s1) + (s2 + s3)
+}
+
+// lagSums returns c_j = sum_t r_t r_{t+j} for j = 0..lags (lags < len(r)).
+func lagSums(dst, r []float64, lags int) []float64 {
+	dst = dst[:0]
+	for j := 0; j <= lags; j++ {
+		if j >= len(r) {
+			dst = append(dst, 0)
+			continue
+		}
+		dst = append(dst, vdot(r[:len(r)-j], r[j:]))
+	}
+	return dst
+}
