@@ -4,7 +4,6 @@ import (
 	"math"
 	"testing"
 
-	"github.com/tessera-fmri/tessera/fit"
 	"github.com/tessera-fmri/tessera/simulate"
 )
 
@@ -13,30 +12,8 @@ import (
 // condition's term, one test per region and run.
 func nullShare(t *testing.T, st *simulate.Study, noise string) (share float64, tests int) {
 	t.Helper()
-	nm, err := fit.ParseNoise(noise)
-	if err != nil {
-		t.Fatal(err)
-	}
 	hits := 0
-	for _, r := range st.Runs {
-		var mot []fit.Column
-		for j, name := range simulate.MotionNames {
-			mot = append(mot, fit.Column{Name: name, Values: r.Motion[j]})
-		}
-		d, err := fit.BuildDesign(fit.DesignSpec{
-			Volumes: len(r.Signals[0]), TR: r.TR, SliceRef: 0.5, Highpass: 128,
-			HRF: fit.HRFDoubleGamma, Events: r.Events, Motion: mot,
-		})
-		if err != nil {
-			t.Fatal(err)
-		}
-		if _, err := fit.CheckDesign(r.Subject, d); err != nil {
-			t.Fatal(err)
-		}
-		rf, err := fit.FitRun(d, r.Regions, r.Signals, nm.ForTR(r.TR))
-		if err != nil {
-			t.Fatal(err)
-		}
+	for _, rf := range fitStudy(t, st, noise) {
 		for _, reg := range rf.Regions {
 			c := make([]float64, len(reg.Beta))
 			c[0] = 1

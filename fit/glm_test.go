@@ -110,8 +110,8 @@ func TestCheckDesignNamesColumns(t *testing.T) {
 	}
 }
 
-// fitStudy fits every run of a simulated study with one noise model and
-// returns, per run and region, the fit.
+// fitStudy fits every run of a simulated study with one noise model (Pmax
+// from each run's TR) and returns the fit of each run.
 func fitStudy(t *testing.T, st *simulate.Study, noise string) []*fit.RunFit {
 	t.Helper()
 	nm, err := fit.ParseNoise(noise)
@@ -134,7 +134,7 @@ func fitStudy(t *testing.T, st *simulate.Study, noise string) []*fit.RunFit {
 		if _, err := fit.CheckDesign(r.Subject, d); err != nil {
 			t.Fatal(err)
 		}
-		rf, err := fit.FitRun(d, r.Regions, r.Signals, nm)
+		rf, err := fit.FitRun(d, r.Regions, r.Signals, nm.ForTR(r.TR))
 		if err != nil {
 			t.Fatal(err)
 		}
