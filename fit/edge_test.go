@@ -197,3 +197,37 @@ func TestAREdgeOfStationarity(t *testing.T) {
 		t.Errorf("no stationarity warning: %v", res.Warnings)
 	}
 }
+
+// TestRegionBlocksIndependent: a run with more regions than one block is
+// fitted in blocks; every region's results equal those of fitting it alone.
+func TestRegionBlocksIndependent(t *testing.T) {
+	const n, regions = 120, 2*2048 + 3
+	d := edgeDesign(t, n)
+	rng := rand.New(rand.NewPCG(5, 6))
+	y := make([][]float64, regions)
+	names := make([]string, regions)
+	for r := range y {
+		names[r] = "r"
+		y[r] = make([]float64, n)
+		e := 0.0
+		for i := range y[r] {
+			e = 0.4*e + rng.NormFloat64()
+			y[r][i] = 500 + e + 0.5*d.X.At(i, 0)
+		}
+	}
+	nm, _ := fit.ParseNoise("ar1")
+	all, err := fit.FitRun(d, names, y, nm)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, r := range []int{0, 2047, 2048, 4098} {
+		one, err := fit.FitRun(d, names[:1], y[r:r+1], nm)
+		if err != nil {
+			t.Fatal(err)
+		}
+		a, b := all.Regions[r], one.Regions[0]
+		if a.Beta[0] != b.Beta[0] || a.StdError[0] != b.StdError[0] || a.AR[0] != b.AR[0] {
+			t.Errorf("region %d: in a block %v %v %v, alone %v %v %v", r, a.Beta[0], a.StdError[0], a.AR, b.Beta[0], b.StdError[0], b.AR)
+		}
+	}
+}

@@ -180,13 +180,47 @@ func fitRunNoise(d *Design, names []string, y [][]float64, noise NoiseModel) (*R
 		}
 		ws = append(ws, &regionWork{idx: r, name: names[r], y: yr, tss: tss})
 	}
+	if noise.Kind != NoiseOLS {
+		e.L = estimationLags(noise, n)
+		if e.corr, err = b.olsCorrection(e.L); err != nil {
+			return nil, err
+		}
+		e.L = e.corr.lags
+	}
+	// Regions are independent unless pooled, so they are fitted in blocks:
+	// the work space (three series per region) then stays a few hundred MB
+	// at most, however many regions a run has (100,000 vertices would need
+	// ~3 GB at once).
+	block := len(ws)
+	if !noise.Pool {
+		block = regionBlock
+	}
+	for lo := 0; lo < len(ws); lo += block {
+		part := ws[lo:min(lo+block, len(ws))]
+		if err := e.fitBlock(part, rf); err != nil {
+			return nil, err
+		}
+		for i := range part {
+			part[i] = nil // release the block's work space
+		}
+	}
+	return rf, nil
+}
+
+// regionBlock is how many regions are fitted together when regions are
+// independent: large enough for the batched products to run at full speed.
+const regionBlock = 2048
+
+// fitBlock fits a set of regions and writes their results into rf.
+func (e *engine) fitBlock(ws []*regionWork, rf *RunFit) error {
+	k := e.b.k
 	e.start(ws)
-	if noise.Kind == NoiseOLS {
+	if e.noise.Kind == NoiseOLS {
 		ident := make([]float64, k*k)
 		for i := 0; i < k; i++ {
 			ident[i*k+i] = 1
 		}
-		shared := b.cov(ident, 1)
+		shared := e.b.cov(ident, 1)
 		for _, w := range ws {
 			w.ainv = ident
 			w.shared = shared
@@ -194,30 +228,26 @@ func fitRunNoise(d *Design, names []string, y [][]float64, noise NoiseModel) (*R
 			w.model = modelChoice{}
 			e.finish(w, &rf.Regions[w.idx])
 		}
-		return rf, nil
+		return nil
 	}
-	e.L = estimationLags(noise, n)
-	if e.corr, err = b.olsCorrection(e.L); err != nil {
-		return nil, err
-	}
-	e.L = e.corr.lags
 	for _, w := range ws {
 		w.lagsum = lagSums(w.lagsum, w.r0, e.L)
 		w.g = e.corr.correct(w.g, w.lagsum)
 		w.passes = 1
 	}
-	if noise.Pool {
+	var err error
+	if e.noise.Pool {
 		err = e.fitPooled(ws)
 	} else {
 		err = e.fitRegions(ws)
 	}
 	if err != nil {
-		return nil, err
+		return err
 	}
 	for _, w := range ws {
 		e.finish(w, &rf.Regions[w.idx])
 	}
-	return rf, nil
+	return nil
 }
 
 // start allocates the regions' work space and fits them by OLS: a = Q'y
