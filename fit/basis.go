@@ -79,15 +79,8 @@ func newRunBasis(x *mat.Dense) (*runBasis, error) {
 	work = make([]float64, int(work[0]))
 	lapack64.Orgqr(a, tau, work, len(work))
 
-	big := 0.0
-	for i := 0; i < k; i++ {
-		big = math.Max(big, math.Abs(req.At(i, i)))
-	}
-	tol := rankTolerance(n, k) * big
-	for i := 0; i < k; i++ {
-		if math.Abs(req.At(i, i)) <= tol {
-			return nil, fmt.Errorf("design is rank-deficient at column %d", i+1)
-		}
+	if err := checkFullRank(req, n, k); err != nil {
+		return nil, err
 	}
 	var svd mat.SVD
 	if !svd.Factorize(req, mat.SVDNone) {

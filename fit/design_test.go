@@ -213,14 +213,6 @@ func TestResponseDerivatives(t *testing.T) {
 	}
 }
 
-func dot(a, b []float64) float64 {
-	s := 0.0
-	for i := range a {
-		s += a[i] * b[i]
-	}
-	return s
-}
-
 // TestDerivativeAndModulatorOrthogonal: derivative and modulator terms are
 // orthogonal to their condition's main term (|x'm| below 1e-10 of the norms).
 func TestDerivativeAndModulatorOrthogonal(t *testing.T) {
@@ -246,7 +238,7 @@ func TestDerivativeAndModulatorOrthogonal(t *testing.T) {
 	for j := 1; j < 4; j++ {
 		c := make([]float64, n)
 		mat.Col(c, j, d.X)
-		if r := math.Abs(dot(c, main)) / math.Sqrt(dot(c, c)*dot(main, main)); r > 1e-10 {
+		if r := math.Abs(vdot(c, main)) / math.Sqrt(vdot(c, c)*vdot(main, main)); r > 1e-10 {
 			t.Errorf("%s: |x'm|/(|x||m|) = %.3g", d.Terms[j].Name, r)
 		}
 	}

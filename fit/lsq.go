@@ -26,6 +26,22 @@ func rankTolerance(n, k int) float64 {
 	return float64(max(n, k)) * 2.220446049250313e-16
 }
 
+// checkFullRank refuses a triangular QR factor R (k×k, of an n×k matrix)
+// with a diagonal element at or below rankTolerance times the largest.
+func checkFullRank(r mat.Matrix, n, k int) error {
+	big := 0.0
+	for i := 0; i < k; i++ {
+		big = math.Max(big, math.Abs(r.At(i, i)))
+	}
+	tol := rankTolerance(n, k) * big
+	for i := 0; i < k; i++ {
+		if math.Abs(r.At(i, i)) <= tol {
+			return fmt.Errorf("design is rank-deficient at column %d", i+1)
+		}
+	}
+	return nil
+}
+
 // NewLSQ factorises X. It returns an error when X has no more rows than
 // columns or is rank-deficient to working precision.
 func NewLSQ(x *mat.Dense) (*LSQ, error) {
@@ -43,15 +59,8 @@ func NewLSQ(x *mat.Dense) (*LSQ, error) {
 			r.SetTri(i, j, rd.At(i, j))
 		}
 	}
-	big := 0.0
-	for i := 0; i < k; i++ {
-		big = math.Max(big, math.Abs(r.At(i, i)))
-	}
-	tol := rankTolerance(n, k) * big
-	for i := 0; i < k; i++ {
-		if math.Abs(r.At(i, i)) <= tol {
-			return nil, fmt.Errorf("design is rank-deficient at column %d", i+1)
-		}
+	if err := checkFullRank(r, n, k); err != nil {
+		return nil, err
 	}
 	var rinv mat.TriDense
 	if err := rinv.InverseTri(r); err != nil {
