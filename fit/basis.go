@@ -35,7 +35,15 @@ type runBasis struct {
 	cond float64     // condition number of the design with unit-length columns
 	fast bool        // cond < fastPathCondition
 	lag  [][]float64 // lag[d], k×k, d ≥ 1; lag[0] is nil (K_0 = I)
+	// lagPacked holds the lower triangles of lag_1, lag_2, ... packed row
+	// by row (k(k+1)/2 entries each, entry (i, j ≤ i) at i(i+1)/2 + j), one
+	// lag after another, so that sum_d v_d lag_d is one matrix-vector
+	// product.
+	lagPacked []float64
 }
+
+// packedSize is k(k+1)/2, the entries of a packed lower triangle.
+func packedSize(k int) int { return k * (k + 1) / 2 }
 
 // newRunBasis factorises the design: Householder QR of the equilibrated
 // columns (LAPACK dgeqrf/dorgqr), R rescaled to the original columns.
@@ -127,6 +135,9 @@ func (b *runBasis) ensureLags(D int) {
 			}
 		}
 		b.lag = append(b.lag, kd)
+		for i := 0; i < k; i++ {
+			b.lagPacked = append(b.lagPacked, kd[i*k:i*k+i+1]...)
+		}
 	}
 }
 
@@ -318,7 +329,8 @@ func (c *olsCorrection) correct(dst, lagsum []float64) []float64 {
 }
 
 // correctGLS returns corrected autocovariances from the lag sums c of GLS
-// residuals r = y - Xβ̂, β̂ the GLS estimate under a covariance s²V_1. When
+// residuals r = y - Xβ̂, β̂ the GLS estimate under a covariance s²V_1
+// (ainv is (Q'V_1^-1Q)^-1, k×k with both triangles filled). When
 // V_1 is the noise's correlation, E[r r'] = s²V_1 - X Cov(β̂) X' exactly, so
 //
 //	E[c_j] = (n - j) g_j - s² tr((Q'V_1^-1 Q)^-1 Q'D_jQ),
@@ -335,11 +347,10 @@ func (b *runBasis) correctGLS(dst, lagsum, ainv []float64, s2 float64) []float64
 		if j == 0 {
 			t = traceOf(ainv, k)
 		} else {
-			// tr(A^-1 lag_j)/2 over the lower triangle (both symmetric).
-			lj := b.lag[j]
-			for i := 0; i < k; i++ {
-				t += vdot(ainv[i*k:i*k+i], lj[i*k:i*k+i]) + 0.5*ainv[i*k+i]*lj[i*k+i]
-			}
+			// tr(A^-1 lag_j)/2: both are symmetric and held in full, so
+			// the trace of the product is half the sum of their
+			// elementwise products, one dot product of length k².
+			t = 0.5 * vdot(ainv[:k*k], b.lag[j])
 		}
 		dst = append(dst, (c+s2*t)/float64(n-j))
 	}

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"sync"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
@@ -94,6 +95,36 @@ type engine struct {
 	tmp   []float64
 	// bufIn, bufOut hold one batch of the matrix products with Q.
 	bufIn, bufOut []float64
+	packed        []float64 // scratch of assemble, k(k+1)/2
+	// vecs and mats back the work space of the block being fitted; they
+	// come from workPool and go back to it when the block is done.
+	vecs, mats []float64
+}
+
+// workPool keeps the work space of fitted blocks for the next block or run:
+// a block of regions needs megabytes, and memory fresh from the operating
+// system costs a page fault per 4 KB on first touch, which measured more
+// than the arithmetic of a GLS pass (BenchmarkFitRunAuto). Buffers are
+// handed out without clearing; every field of the work space is written
+// before it is read.
+var workPool sync.Pool
+
+// getBuffer returns a buffer of length m from workPool, or a new one.
+func getBuffer(m int) []float64 {
+	if p, ok := workPool.Get().(*[]float64); ok {
+		if cap(*p) >= m {
+			return (*p)[:m]
+		}
+		// Too small for this block: let it go and make one that fits.
+	}
+	return make([]float64, m)
+}
+
+// putBuffer returns a buffer to workPool.
+func putBuffer(b []float64) {
+	if cap(b) > 0 {
+		workPool.Put(&b)
+	}
 }
 
 // qtBatch sets dst(w) = Q' src(w) for every region, by matrix products of
@@ -215,6 +246,12 @@ const regionBlock = 2048
 func (e *engine) fitBlock(ws []*regionWork, rf *RunFit) error {
 	k := e.b.k
 	e.start(ws)
+	defer func() {
+		// The results were copied out; the work space goes back.
+		putBuffer(e.vecs)
+		putBuffer(e.mats)
+		e.vecs, e.mats = nil, nil
+	}()
 	if e.noise.Kind == NoiseOLS {
 		ident := make([]float64, k*k)
 		for i := 0; i < k; i++ {
@@ -256,7 +293,8 @@ func (e *engine) start(ws []*regionWork) {
 	n, k := e.b.n, e.b.k
 	// One backing array per kind of vector, so that the regions' work
 	// space is a few allocations, not a few per region.
-	vecs := make([]float64, len(ws)*(3*n+3*k))
+	e.vecs = getBuffer(len(ws) * (3*n + 3*k))
+	vecs := e.vecs
 	next := func(m int) []float64 {
 		v := vecs[:m:m]
 		vecs = vecs[m:]
@@ -264,7 +302,8 @@ func (e *engine) start(ws []*regionWork) {
 	}
 	var mats []float64
 	if e.noise.Kind != NoiseOLS {
-		mats = make([]float64, len(ws)*3*k*k)
+		e.mats = getBuffer(len(ws) * 3 * k * k)
+		mats = e.mats
 	}
 	for i, w := range ws {
 		w.r0, w.resid, w.w = next(n), next(n), next(n)
@@ -482,22 +521,22 @@ func (e *engine) assemble(a []float64, pr precision) bool {
 		return false
 	}
 	b.ensureLags(D)
-	for i := range a {
-		a[i] = 0
+	clear(a[:k*k])
+	if D > 0 {
+		// The packed lower triangle of sum_d v_d lag_d in one product.
+		kp := packedSize(k)
+		if len(e.packed) < kp {
+			e.packed = make([]float64, kp)
+		}
+		sum := e.packed[:kp]
+		blas64.Gemv(blas.Trans, 1, blas64.General{Rows: D, Cols: kp, Stride: kp, Data: b.lagPacked[:D*kp]},
+			blas64.Vector{N: D, Inc: 1, Data: pr.v[1 : D+1]}, 0, blas64.Vector{N: kp, Inc: 1, Data: sum})
+		for i := 0; i < k; i++ {
+			copy(a[i*k:i*k+i+1], sum[i*(i+1)/2:])
+		}
 	}
 	for i := 0; i < k; i++ {
-		a[i*k+i] = pr.v[0]
-	}
-	for d := 1; d <= D; d++ {
-		vd := pr.v[d]
-		ld := b.lag[d]
-		for i := 0; i < k; i++ {
-			ai := a[i*k : i*k+i+1]
-			li := ld[i*k : i*k+i+1]
-			for j, v := range li {
-				ai[j] += vd * v
-			}
-		}
+		a[i*k+i] += pr.v[0]
 	}
 	bot := e.scratch(2 * k)
 	top := bot[k:]
