@@ -159,63 +159,34 @@ func (b *runBasis) beta(gamma []float64) []float64 {
 	return beta
 }
 
-// cov returns s2 R^-1 C R^-T for a k×k symmetric C (the covariance of the
-// Q coefficients per unit variance) as the covariance of β.
-func (b *runBasis) cov(c []float64, s2 float64) *mat.SymDense {
+// covFactor returns the packed upper-triangular G = R^-1 W' from
+// W = L^-1 (A = L L', W lower triangular), so that R^-1 A^-1 R^-T = G G':
+// the covariance of β per unit variance, as RegionFit holds it. It costs
+// k³/6, the product of two triangles.
+func (b *runBasis) covFactor(linv []float64) []float64 {
 	k := b.k
-	// M = R^-1 C (R^-1 upper triangular).
-	m := make([]float64, k*k)
+	g := make([]float64, packedSize(k))
 	for i := 0; i < k; i++ {
-		for j := 0; j < k; j++ {
-			s := 0.0
-			for p := i; p < k; p++ {
-				s += b.rinv[i*k+p] * c[p*k+j]
-			}
-			m[i*k+j] = s
-		}
-	}
-	out := mat.NewSymDense(k, nil)
-	for i := 0; i < k; i++ {
-		for j := i; j < k; j++ {
-			// (M R^-T)_ij = sum_p M_ip (R^-1)_jp, p ≥ j.
-			s := 0.0
-			for p := j; p < k; p++ {
-				s += m[i*k+p] * b.rinv[j*k+p]
-			}
-			out.SetSym(i, j, s2*s)
-		}
-	}
-	return out
-}
-
-// covFromFactor returns s2 R^-1 A^-1 R^-T from W = L^-1 (A = L L', W
-// lower triangular): with G = R^-1 W' (upper triangular) it is s2 G G',
-// two triangular products of k³/6 each.
-func (b *runBasis) covFromFactor(linv []float64, s2 float64) *mat.SymDense {
-	k := b.k
-	g := make([]float64, k*k)
-	for i := 0; i < k; i++ {
+		ri := b.rinv[i*k : (i+1)*k]
+		gi := g[packedRow(i, k):packedRow(i+1, k)]
 		for j := i; j < k; j++ {
 			// G_ij = sum_{p=i..j} (R^-1)_ip W_jp.
-			s := 0.0
-			ri := b.rinv[i*k : (i+1)*k]
 			wj := linv[j*k : (j+1)*k]
-			for p := i; p <= j; p++ {
-				s += ri[p] * wj[p]
-			}
-			g[i*k+j] = s
+			gi[j-i] = vdot(ri[i:j+1], wj[i:j+1])
 		}
 	}
-	out := mat.NewSymDense(k, nil)
-	raw := out.RawSymmetric()
+	return g
+}
+
+// rinvFactor returns R^-1 packed: the covariance factor of OLS, (X'X)^-1 =
+// R^-1 R^-T.
+func (b *runBasis) rinvFactor() []float64 {
+	k := b.k
+	g := make([]float64, packedSize(k))
 	for i := 0; i < k; i++ {
-		gi := g[i*k : (i+1)*k]
-		for j := i; j < k; j++ {
-			gj := g[j*k : (j+1)*k]
-			raw.Data[i*raw.Stride+j] = s2 * vdot(gi[j:], gj[j:])
-		}
+		copy(g[packedRow(i, k):packedRow(i+1, k)], b.rinv[i*k+i:(i+1)*k])
 	}
-	return out
+	return g
 }
 
 // olsCorrection is the bias correction of autocovariances estimated from

@@ -1,6 +1,10 @@
 package fit
 
-import "math"
+import (
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
 
 // Small dense kernels on row-major k×k matrices held in []float64, for the
 // per-region work of the many-regions path, where allocating gonum values
@@ -139,4 +143,30 @@ func lagSums(dst, r []float64, lags int) []float64 {
 		dst = append(dst, vdot(r[:len(r)-j], r[j:]))
 	}
 	return dst
+}
+
+// upperFactor returns the packed upper-triangular U (row i holds columns
+// i..k-1) with U U' = c, for c symmetric positive definite: the Cholesky
+// factor L of c with rows and columns reversed, J c J = L L', gives
+// c = (J L J)(J L J)' with J L J upper triangular. ok is false when c is
+// not positive definite to working precision.
+func upperFactor(c *mat.SymDense) (u []float64, ok bool) {
+	k := c.SymmetricDim()
+	a := make([]float64, k*k)
+	for i := 0; i < k; i++ {
+		for j := 0; j <= i; j++ {
+			a[i*k+j] = c.At(k-1-i, k-1-j)
+		}
+	}
+	if !cholesky(a, k) {
+		return nil, false
+	}
+	u = make([]float64, packedSize(k))
+	for i := 0; i < k; i++ {
+		off := packedRow(i, k)
+		for j := i; j < k; j++ {
+			u[off+j-i] = a[(k-1-i)*k+(k-1-j)]
+		}
+	}
+	return u, true
 }

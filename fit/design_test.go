@@ -150,7 +150,10 @@ func TestFTestAgainstAnova(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		rf := &RegionFit{Beta: res.Beta, Cov: res.Cov, DF: res.DF}
+		rf := &RegionFit{Beta: res.Beta, DF: res.DF}
+		if err := rf.SetCov(res.Cov); err != nil {
+			t.Fatal(err)
+		}
 		got, err := rf.FTest([][]float64{{0, 0, 1, 0}, {0, 0, 0, 1}})
 		if err != nil {
 			t.Fatal(err)

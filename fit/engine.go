@@ -69,11 +69,13 @@ type regionWork struct {
 	prec  precision
 	slow  bool
 	linv  []float64 // L^-1, A = L L'
-	// shared is R^-1 A^-1 R^-T when every region shares A (OLS, pooled).
-	shared *mat.SymDense
+	// shared is the covariance factor G (R^-1 A^-1 R^-T = G G', packed,
+	// see RegionFit) when every region shares A (OLS, pooled).
+	shared []float64
 	// Per-region QR results, in the design's own basis.
 	slowBeta []float64
 	slowCov  *mat.SymDense // (X̃'X̃)^-1
+	slowFac  []float64     // its packed upper-triangular factor
 	passes   int
 	done     bool
 	// shrunk is set once any pass had to hold the model inside the
@@ -257,7 +259,7 @@ func (e *engine) fitBlock(ws []*regionWork, rf *RunFit) error {
 		for i := 0; i < k; i++ {
 			ident[i*k+i] = 1
 		}
-		shared := e.b.cov(ident, 1)
+		shared := e.b.rinvFactor()
 		for _, w := range ws {
 			w.ainv = ident
 			w.shared = shared
@@ -580,6 +582,10 @@ func (e *engine) slowGLS(w *regionWork) error {
 	copy(w.resid, residuals(e.d.X, w.y, beta))
 	w.slowBeta = beta
 	w.slowCov = lsq.CovUnscaled()
+	var ok bool
+	if w.slowFac, ok = upperFactor(w.slowCov); !ok {
+		return fmt.Errorf("whitened design is numerically rank-deficient")
+	}
 	e.toQBasis(w.slowCov, w.ainv)
 	wh.Apply(yw, w.resid)
 	w.s2 = vdot(yw, yw) / float64(e.df)
@@ -628,25 +634,21 @@ func (e *engine) toQBasis(c *mat.SymDense, dst []float64) {
 
 // finish computes the region's results from its final fit.
 func (e *engine) finish(w *regionWork, out *RegionFit) {
-	n, k := e.b.n, e.b.k
+	n := e.b.n
 	p := w.model.p
+	out.covScale = w.s2
 	switch {
 	case w.slowBeta != nil:
 		out.Beta = w.slowBeta
-		out.Cov = mat.NewSymDense(k, nil)
-		out.Cov.ScaleSym(w.s2, w.slowCov)
+		out.covFactor = w.slowFac
 	case w.shared != nil:
 		out.Beta = e.b.beta(w.gamma)
-		out.Cov = mat.NewSymDense(k, nil)
-		out.Cov.ScaleSym(w.s2, w.shared)
+		out.covFactor = w.shared
 	default:
 		out.Beta = e.b.beta(w.gamma)
-		out.Cov = e.b.covFromFactor(w.linv, w.s2)
+		out.covFactor = e.b.covFactor(w.linv)
 	}
-	out.StdError = make([]float64, k)
-	for j := range out.StdError {
-		out.StdError[j] = math.Sqrt(out.Cov.At(j, j))
-	}
+	out.setStdErrors()
 	out.DF = e.df
 	wr := w.resid
 	g0 := 1.0

@@ -32,14 +32,15 @@ func (f *RegionFit) FTest(c [][]float64) (FTestFit, error) {
 	}
 	var cb mat.VecDense
 	cb.MulVec(cm, mat.NewVecDense(k, f.Beta))
-	var ccc mat.Dense
-	ccc.Mul(cm, f.Cov)
-	var m mat.Dense
-	m.Mul(&ccc, cm.T())
+	// C Cov C' = s (C G)(C G)' with Cov = s G G' (see RegionFit).
+	cg := make([][]float64, q)
+	for i, r := range c {
+		cg[i] = f.factorProduct(nil, r)
+	}
 	sym := mat.NewSymDense(q, nil)
 	for i := 0; i < q; i++ {
 		for j := i; j < q; j++ {
-			sym.SetSym(i, j, 0.5*(m.At(i, j)+m.At(j, i)))
+			sym.SetSym(i, j, f.covScale*vdot(cg[i], cg[j]))
 		}
 	}
 	var ch mat.Cholesky

@@ -1,6 +1,7 @@
 package fit
 
 import (
+	"fmt"
 	"math"
 
 	"gonum.org/v1/gonum/mat"
@@ -14,8 +15,14 @@ type RegionFit struct {
 	Skip     string
 	Beta     []float64
 	StdError []float64
-	Cov      *mat.SymDense // covariance of Beta
-	DF       int
+	// The covariance of Beta is held as covScale · G G', G upper
+	// triangular and packed (covFactor): half the memory of the matrix,
+	// and every variance the inference needs is a sum of squares of G'c
+	// (see Cov, Contrast, FTest). Regions fitted with one shared matrix
+	// (OLS, a pooled noise model) share G.
+	covFactor []float64
+	covScale  float64
+	DF        int
 	// Sigma is the standard deviation of the modelled noise in signal
 	// units: for AR(P) the marginal s·sqrt(g_0), s² the innovation
 	// variance; for OLS the residual standard deviation.
@@ -110,7 +117,8 @@ type ContrastFit struct {
 	PSC                                   float64 // 100 · estimate / baseline
 }
 
-// Contrast returns c'β, its standard error sqrt(c' Cov c), t = c'β / se,
+// Contrast returns c'β, its standard error sqrt(c' Cov c) = sqrt(s ||G'c||²)
+// (Cov = s G G', see RegionFit), t = c'β / se,
 // the two-sided p value from Student's t with the region's df, and the
 // percent signal change 100 · c'β / baseline.
 func (f *RegionFit) Contrast(c []float64) ContrastFit {
@@ -118,8 +126,8 @@ func (f *RegionFit) Contrast(c []float64) ContrastFit {
 	for j, w := range c {
 		est += w * f.Beta[j]
 	}
-	v := mat.Inner(mat.NewVecDense(len(c), c), f.Cov, mat.NewVecDense(len(c), c))
-	se := math.Sqrt(v)
+	u := f.factorProduct(nil, c)
+	se := math.Sqrt(f.covScale * vdot(u, u))
 	t := est / se
 	return ContrastFit{
 		Estimate: est, StdError: se, Statistic: t, DF: f.DF,
@@ -145,3 +153,67 @@ func (f *RegionFit) NoiseWhitener(n int) (Whitening, error) {
 	w, _, err := p.whitener(n)
 	return w, err
 }
+
+// packedRow is the offset of row i of a packed upper triangle of order k
+// (row i holds columns i..k-1).
+func packedRow(i, k int) int { return i * (2*k - i + 1) / 2 }
+
+// factorProduct writes G'c into dst (allocated when nil) for the region's
+// covariance factor G: (G'c)_j = sum_{i ≤ j} G_ij c_i.
+func (f *RegionFit) factorProduct(dst, c []float64) []float64 {
+	k := len(c)
+	if dst == nil {
+		dst = make([]float64, k)
+	}
+	clear(dst)
+	for i, ci := range c {
+		if ci != 0 {
+			off := packedRow(i, k)
+			axpy(dst[i:], ci, f.covFactor[off:off+k-i])
+		}
+	}
+	return dst
+}
+
+// Cov returns the covariance matrix of Beta, s G G'.
+func (f *RegionFit) Cov() *mat.SymDense {
+	k := len(f.Beta)
+	out := mat.NewSymDense(k, nil)
+	g := f.covFactor
+	for i := 0; i < k; i++ {
+		gi := g[packedRow(i, k):packedRow(i+1, k)]
+		for j := i; j < k; j++ {
+			// Rows i and j of G overlap in columns j..k-1.
+			gj := g[packedRow(j, k):packedRow(j+1, k)]
+			out.SetSym(i, j, f.covScale*vdot(gi[j-i:], gj))
+		}
+	}
+	return out
+}
+
+// SetCov sets the covariance of Beta and the standard errors from a full
+// matrix (symmetric positive definite), for fits made outside the engine.
+func (f *RegionFit) SetCov(c *mat.SymDense) error {
+	g, ok := upperFactor(c)
+	if !ok {
+		return fmt.Errorf("covariance matrix is not positive definite")
+	}
+	f.covFactor, f.covScale = g, 1
+	f.setStdErrors()
+	return nil
+}
+
+// setStdErrors sets StdError_i = sqrt(s sum_{j ≥ i} G_ij²), the square
+// roots of the diagonal of s G G'.
+func (f *RegionFit) setStdErrors() {
+	k := len(f.Beta)
+	f.StdError = make([]float64, k)
+	for i := range f.StdError {
+		gi := f.covFactor[packedRow(i, k):packedRow(i+1, k)]
+		f.StdError[i] = math.Sqrt(f.covScale * vdot(gi, gi))
+	}
+}
+
+// dropCovariance releases the covariance factor once the run's contrasts
+// and F tests are computed (large studies keep only what the tables need).
+func (f *RegionFit) dropCovariance() { f.covFactor = nil }

@@ -140,7 +140,7 @@ func (e *engine) glsShared(ws []*regionWork, m modelChoice) error {
 		}
 	}
 	cholInverse(first.a, k, first.ainv, first.linv)
-	shared := e.b.covFromFactor(first.linv, 1)
+	shared := e.b.covFactor(first.linv)
 	for _, w := range ws {
 		w.model, w.slow, w.slowBeta, w.prec = m, false, nil, pr
 		w.a, w.ainv, w.linv, w.shared = first.a, first.ainv, first.linv, shared
@@ -193,6 +193,10 @@ func (e *engine) slowShared(ws []*regionWork, m modelChoice) error {
 		return err
 	}
 	cov := lsq.CovUnscaled()
+	fac, ok := upperFactor(cov)
+	if !ok {
+		return fmt.Errorf("whitened design is numerically rank-deficient")
+	}
 	ainv := make([]float64, k*k)
 	e.toQBasis(cov, ainv)
 	yw := make([]float64, n)
@@ -201,7 +205,7 @@ func (e *engine) slowShared(ws []*regionWork, m modelChoice) error {
 		wh.Apply(yw, w.y)
 		beta, _ := lsq.Solve(yw)
 		copy(w.resid, residuals(e.d.X, w.y, beta))
-		w.slowBeta, w.slowCov = beta, cov
+		w.slowBeta, w.slowCov, w.slowFac = beta, cov, fac
 		w.ainv = ainv
 		wh.Apply(yw, w.resid)
 		w.s2 = vdot(yw, yw) / float64(e.df)

@@ -601,7 +601,7 @@ func fitPlanned(p *RunPlan, cs []Contrast, fts []FTest, noise NoiseModel) (*RunR
 	}
 	if p.reload != nil {
 		for i := range f.Regions {
-			f.Regions[i].Cov = nil
+			f.Regions[i].dropCovariance()
 		}
 	}
 	return rr, nil

@@ -5,6 +5,7 @@ import (
 	"os"
 	"path/filepath"
 	"runtime"
+	"runtime/debug"
 	"strconv"
 	"strings"
 	"sync"
@@ -306,6 +307,15 @@ func (m *modelFlags) load(args []string, o fit.Options) (*loaded, error) {
 		}
 	}
 	stream := total > streamBytes
+	if stream && os.Getenv("GOGC") == "" {
+		// Large inputs (unless GOGC says otherwise): collect garbage when the heap has grown by a
+		// quarter rather than doubled. The heap is mostly slices of
+		// numbers, which hold no pointers, so a collection costs little;
+		// the default would let the peak reach twice what is live (a
+		// 20,000 x 1,200 run: 1.08 GB peak RSS at the default, 0.71 GB at
+		// 25, in the same time).
+		debug.SetGCPercent(largeInputGCPercent)
+	}
 	// Runs are read and planned in parallel (jobs workers), each into its
 	// own slot, so the order and the result do not depend on the workers.
 	lopt := roi.LoadOptions{MissingCensor: m.missing == "censor"}
@@ -381,6 +391,10 @@ func (m *modelFlags) load(args []string, o fit.Options) (*loaded, error) {
 // read one at a time when they are fitted (and read once before, to plan),
 // so memory holds the runs in flight rather than the whole study.
 var streamBytes int64 = 256 << 20
+
+// largeInputGCPercent is the garbage collector's growth target (GOGC) for
+// studies beyond streamBytes.
+const largeInputGCPercent = 25
 
 // checkOutputDir refuses an output folder that is, or is inside, a folder
 // holding an input file: fit never writes inside an input folder.
