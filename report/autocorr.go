@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"github.com/tessera-fmri/tessera/fit"
+	"github.com/tessera-fmri/tessera/roi"
 )
 
 // Autocorrelation is autocorrelation.csv: the residual autocorrelation of
@@ -20,27 +21,40 @@ var Autocorrelation = TableDef{"autocorrelation.csv", "subject, session, run, re
 }}
 
 // writeAutocorrelation writes autocorrelation.csv; regions and runs that
-// were not fitted have no rows.
+// were not fitted have no rows. Rows are formatted in parts of
+// partRegions regions (see writeParts).
 func writeAutocorrelation(out *Output, res *fit.StudyResult) error {
-	tw, err := newTable(out, Autocorrelation)
-	if err != nil {
-		return err
-	}
+	var parts []func(*tableWriter)
 	for _, rr := range res.Runs {
 		if rr.Fit == nil {
 			continue
 		}
-		s := rr.Plan.Run.Spec
-		for _, reg := range rr.Fit.Regions {
-			if reg.Skip != "" {
-				continue
-			}
-			for k := range reg.RawACF {
-				tw.row(s.Subject, s.Session, s.Run, reg.Region, strconv.Itoa(k+1), Num(reg.RawACF[k]), Num(reg.WhitenedACF[k]))
-			}
+		for lo := 0; lo < len(rr.Fit.Regions); lo += partRegions {
+			regions := rr.Fit.Regions[lo:min(lo+partRegions, len(rr.Fit.Regions))]
+			parts = append(parts, func(t *tableWriter) { autocorrelationRows(t, rr.Plan.Run.Spec, regions) })
 		}
 	}
-	return tw.close()
+	return writeParts(out, Autocorrelation, parts)
+}
+
+// autocorrelationRows appends the autocorrelation rows of the given
+// regions of the run s.
+func autocorrelationRows(tw *tableWriter, s roi.RunSpec, regions []fit.RegionFit) {
+	var key cellRun
+	for ri := range regions {
+		reg := &regions[ri]
+		if reg.Skip != "" {
+			continue
+		}
+		key.set(s.Subject, s.Session, s.Run, reg.Region)
+		for k := range reg.RawACF {
+			tw.cells(&key)
+			tw.integer(k + 1)
+			tw.num(reg.RawACF[k])
+			tw.num(reg.WhitenedACF[k])
+			tw.end()
+		}
+	}
 }
 
 // noiseSummary describes the noise model for report.md, with the models

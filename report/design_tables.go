@@ -1,8 +1,6 @@
 package report
 
 import (
-	"strconv"
-
 	"github.com/tessera-fmri/tessera/fit"
 )
 
@@ -41,8 +39,30 @@ var (
 )
 
 // WriteDesignTables writes audit.csv, and motion.csv, ftests.csv and
-// responses.csv where they apply.
+// responses.csv where they apply, concurrently (they are separate files);
+// the first error in that order is returned.
 func WriteDesignTables(out *Output, res *fit.StudyResult) error {
+	hasMotion, hasFIR := false, res.Options.HRF == fit.HRFFIR
+	for _, rr := range res.Runs {
+		if rr.Plan.FD != nil {
+			hasMotion = true
+		}
+	}
+	jobs := []func() error{func() error { return writeAuditTable(out, res) }}
+	if hasMotion {
+		jobs = append(jobs, func() error { return writeMotion(out, res) })
+	}
+	if len(res.FTests) > 0 {
+		jobs = append(jobs, func() error { return writeFTestTable(out, res) })
+	}
+	if hasFIR {
+		jobs = append(jobs, func() error { return writeResponses(out, res) })
+	}
+	return parallel(jobs...)
+}
+
+// writeAuditTable writes audit.csv: the design audit of every run.
+func writeAuditTable(out *Output, res *fit.StudyResult) error {
 	aud, err := newTable(out, AuditTable)
 	if err != nil {
 		return err
@@ -50,93 +70,115 @@ func WriteDesignTables(out *Output, res *fit.StudyResult) error {
 	for _, rr := range res.Runs {
 		s := rr.Plan.Run.Spec
 		for _, a := range rr.Plan.Audit {
-			aud.row(s.Subject, s.Session, s.Run, a.Item, a.Measure, Num(a.Value), a.Flag)
+			aud.str(s.Subject)
+			aud.str(s.Session)
+			aud.str(s.Run)
+			aud.str(a.Item)
+			aud.str(a.Measure)
+			aud.num(a.Value)
+			aud.str(a.Flag)
+			aud.end()
 		}
 	}
-	if err := aud.close(); err != nil {
+	return aud.close()
+}
+
+// writeMotion writes motion.csv: framewise displacement and censoring of
+// every kept volume of the runs with motion columns.
+func writeMotion(out *Output, res *fit.StudyResult) error {
+	mt, err := newTable(out, Motion)
+	if err != nil {
 		return err
 	}
-	hasMotion, hasFIR := false, res.Options.HRF == fit.HRFFIR
+	var key cellRun
 	for _, rr := range res.Runs {
-		if rr.Plan.FD != nil {
-			hasMotion = true
-		}
-	}
-	if hasMotion {
-		mt, err := newTable(out, Motion)
-		if err != nil {
-			return err
-		}
-		for _, rr := range res.Runs {
-			s := rr.Plan.Run.Spec
-			cens := rr.Plan.Design.Censored
-			for v, fd := range rr.Plan.FD {
-				c := "0"
-				if cens != nil && cens[v] {
-					c = "1"
-				}
-				mt.row(s.Subject, s.Session, s.Run, strconv.Itoa(v), Num(fd), c)
+		s := rr.Plan.Run.Spec
+		cens := rr.Plan.Design.Censored
+		key.set(s.Subject, s.Session, s.Run)
+		for v, fd := range rr.Plan.FD {
+			mt.cells(&key)
+			mt.integer(v)
+			mt.num(fd)
+			if cens != nil && cens[v] {
+				mt.integer(1)
+			} else {
+				mt.integer(0)
 			}
-		}
-		if err := mt.close(); err != nil {
-			return err
+			mt.end()
 		}
 	}
-	if len(res.FTests) > 0 {
-		ft, err := newTable(out, FTests)
-		if err != nil {
-			return err
+	return mt.close()
+}
+
+// writeFTestTable writes ftests.csv: one row per valid F test and fitted
+// region of each run, tests outermost.
+func writeFTestTable(out *Output, res *fit.StudyResult) error {
+	ft, err := newTable(out, FTests)
+	if err != nil {
+		return err
+	}
+	var key cellRun
+	for _, rr := range res.Runs {
+		if rr.Fit == nil {
+			continue
 		}
-		for _, rr := range res.Runs {
-			if rr.Fit == nil {
+		s := rr.Plan.Run.Spec
+		for fi, t := range res.FTests {
+			if !rr.FValid[fi] {
 				continue
 			}
-			s := rr.Plan.Run.Spec
-			for fi, t := range res.FTests {
-				if !rr.FValid[fi] {
-					continue
-				}
-				for ri, reg := range rr.Fit.Regions {
-					if reg.Skip != "" {
-						continue
-					}
-					f := rr.FTests[fi][ri]
-					ft.row(s.Subject, s.Session, s.Run, reg.Region, t.Name, Num(f.Statistic), strconv.Itoa(f.DFNum),
-						strconv.Itoa(f.DFDen), Num(f.PValue), Num(rr.FQ[fi][ri]))
-				}
-			}
-		}
-		if err := ft.close(); err != nil {
-			return err
-		}
-	}
-	if hasFIR {
-		rt, err := newTable(out, Responses)
-		if err != nil {
-			return err
-		}
-		for _, rr := range res.Runs {
-			if rr.Fit == nil {
-				continue
-			}
-			s := rr.Plan.Run.Spec
-			d := rr.Plan.Design
-			for _, reg := range rr.Fit.Regions {
+			for ri := range rr.Fit.Regions {
+				reg := &rr.Fit.Regions[ri]
 				if reg.Skip != "" {
 					continue
 				}
-				for j, t := range d.Terms {
-					if t.Kind != fit.TermFIR {
-						continue
-					}
-					rt.row(s.Subject, s.Session, s.Run, reg.Region, t.Condition, Num(t.Time), Num(reg.Beta[j]),
-						Num(reg.StdError[j]), Num(100*reg.Beta[j]/reg.Baseline))
-				}
+				f := rr.FTests[fi][ri]
+				key.set(s.Subject, s.Session, s.Run, reg.Region, t.Name)
+				ft.cells(&key)
+				ft.num(f.Statistic)
+				ft.integer(f.DFNum)
+				ft.integer(f.DFDen)
+				ft.num(f.PValue)
+				ft.num(rr.FQ[fi][ri])
+				ft.end()
 			}
 		}
-		if err := rt.close(); err != nil {
-			return err
+	}
+	return ft.close()
+}
+
+// writeResponses writes responses.csv: the FIR bins of every fitted region.
+func writeResponses(out *Output, res *fit.StudyResult) error {
+	rt, err := newTable(out, Responses)
+	if err != nil {
+		return err
+	}
+	var key cellRun
+	for _, rr := range res.Runs {
+		if rr.Fit == nil {
+			continue
+		}
+		s := rr.Plan.Run.Spec
+		d := rr.Plan.Design
+		for ri := range rr.Fit.Regions {
+			reg := &rr.Fit.Regions[ri]
+			if reg.Skip != "" {
+				continue
+			}
+			key.set(s.Subject, s.Session, s.Run, reg.Region)
+			for j, t := range d.Terms {
+				if t.Kind != fit.TermFIR {
+					continue
+				}
+				rt.cells(&key)
+				rt.str(t.Condition)
+				rt.num(t.Time)
+				rt.num(reg.Beta[j])
+				rt.num(reg.StdError[j])
+				rt.num(100 * reg.Beta[j] / reg.Baseline)
+				rt.end()
+			}
 		}
 	}
-	return nil
+	return rt.close()
 }

@@ -3,6 +3,7 @@ package report
 import (
 	"bytes"
 	"fmt"
+	"image"
 	"image/color"
 	"image/png"
 	"math"
@@ -11,6 +12,7 @@ import (
 	"strings"
 	"sync"
 
+	"git.sr.ht/~sbinet/gg"
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
@@ -289,18 +291,73 @@ func (fw *figureWriter) finish() ([]Figure, error) {
 
 // render draws the plot and encodes it as PNG.
 func (j *figureJob) render() {
-	c := vgimg.NewWith(vgimg.UseWH(pixels(j.w), pixels(j.h)), vgimg.UseDPI(figureDPI))
-	j.plot.Draw(draw.New(c))
+	img := canvases.get(j.w, j.h)
+	defer canvases.put(img)
+	j.plot.Draw(draw.New(newCanvas(img)))
 	// Fastest compression: encoding is most of a figure's cost, and the
 	// flat-colour figures stay small.
-	enc := png.Encoder{CompressionLevel: png.BestSpeed}
-	if err := enc.Encode(&j.png, c.Image()); err != nil {
+	enc := png.Encoder{CompressionLevel: png.BestSpeed, BufferPool: &pngBuffers}
+	if err := enc.Encode(&j.png, img); err != nil {
 		panic("report: PNG encoding into memory failed: " + err.Error()) // only an invalid image can fail
 	}
 }
 
-// pixels is the length that is px pixels at figureDPI.
-func pixels(px int) vg.Length { return vg.Length(px) * vg.Inch / figureDPI }
+// newCanvas returns a canvas at figureDPI that draws into img, set up as
+// vgimg.NewWith(vgimg.UseWH(...), vgimg.UseDPI(figureDPI)) sets up the
+// image it makes (a context with butt line caps and the y axis inverted,
+// the whole image filled with the white background), so the pixels are
+// the same; NewWith would allocate two images and copy one into the other.
+func newCanvas(img *image.RGBA) *vgimg.Canvas {
+	ctx := gg.NewContextForRGBA(img)
+	ctx.SetLineCapButt()
+	ctx.InvertY()
+	return vgimg.NewWith(vgimg.UseImageWithContext(img, ctx), vgimg.UseDPI(figureDPI))
+}
+
+// imagePool keeps the images figures were drawn into, one sync.Pool per
+// size, for the next figures: fresh images of one or two megabytes each
+// cost more in page faults than drawing into them. A canvas fills its
+// whole image with the background first, so nothing of the previous figure
+// remains; the garbage collector empties the pools when they sit unused.
+type imagePool struct {
+	sizes sync.Map // image.Point → *sync.Pool of *image.RGBA
+}
+
+// canvases is the pool of figure images.
+var canvases imagePool
+
+// get returns a w×h image, reused when one is free.
+func (p *imagePool) get(w, h int) *image.RGBA {
+	size := image.Pt(w, h)
+	if pool, ok := p.sizes.Load(size); ok {
+		if img, ok := pool.(*sync.Pool).Get().(*image.RGBA); ok {
+			return img
+		}
+	}
+	return image.NewRGBA(image.Rectangle{Max: size})
+}
+
+// put returns img to the pool of its size.
+func (p *imagePool) put(img *image.RGBA) {
+	pool, _ := p.sizes.LoadOrStore(img.Rect.Size(), &sync.Pool{})
+	pool.(*sync.Pool).Put(img)
+}
+
+// pngPool lets the PNG encoder reuse its buffers and compressor from one
+// figure to the next (image/png resets them; the bytes are the same).
+type pngPool struct{ pool sync.Pool }
+
+// pngBuffers is the PNG encoder's buffer pool.
+var pngBuffers pngPool
+
+// Get returns a free encoder buffer, or nil for the encoder to make one.
+func (p *pngPool) Get() *png.EncoderBuffer {
+	b, _ := p.pool.Get().(*png.EncoderBuffer)
+	return b
+}
+
+// Put keeps b for a later figure.
+func (p *pngPool) Put(b *png.EncoderBuffer) { p.pool.Put(b) }
 
 // design draws a run's design matrix: one column per term, volumes
 // downwards, each column scaled from its minimum (paper) to its maximum
@@ -430,18 +487,20 @@ func strongest(res *fit.StudyResult) []pick {
 		if ci == figureContrasts {
 			break
 		}
-		var rows []fit.SubjectResult
-		for _, s := range res.Subjects {
+		var rows []int
+		var ts []float64
+		for i, s := range res.Subjects {
 			if s.Contrast == c.Name && finite(s.Statistic) {
-				rows = append(rows, s)
+				rows = append(rows, i)
+				ts = append(ts, math.Abs(s.Statistic))
 			}
 		}
-		sort.SliceStable(rows, func(i, j int) bool { return math.Abs(rows[i].Statistic) > math.Abs(rows[j].Statistic) })
 		rank := 0
-		for _, s := range rows {
+		for _, k := range rankOrder(ts, largerFirst) {
 			if rank == figureTop {
 				break
 			}
+			s := res.Subjects[rows[k]]
 			best := pick{contrast: c.Name, subject: s, t: math.NaN()}
 			for _, r := range res.Runs {
 				if r.Fit == nil || !r.Valid[ci] || r.Plan.Run.Spec.Subject != s.Subject {

@@ -1,6 +1,7 @@
 package report
 
 import (
+	"bytes"
 	"fmt"
 	"image"
 	"image/color"
@@ -10,6 +11,10 @@ import (
 	"regexp"
 	"strings"
 	"testing"
+
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+	"gonum.org/v1/plot/vg/vgimg"
 
 	"github.com/tessera-fmri/tessera/fit"
 	"github.com/tessera-fmri/tessera/roi"
@@ -35,7 +40,7 @@ const (
 
 // studyResult fits a small simulated study (motion included, so framewise
 // displacement exists) with the given model options.
-func studyResult(t *testing.T, so simulate.Options, o fit.Options) *fit.StudyResult {
+func studyResult(t testing.TB, so simulate.Options, o fit.Options) *fit.StudyResult {
 	t.Helper()
 	st, err := simulate.Generate(so)
 	if err != nil {
@@ -358,5 +363,49 @@ func TestStaleFigures(t *testing.T) {
 	found := ExistingResults(dir)
 	if !strings.Contains(strings.Join(found, " "), "figures/") {
 		t.Errorf("ExistingResults = %v; want figures/ listed", found)
+	}
+}
+
+// TestCanvasMatchesNewWith: a figure drawn by render (a pooled image that
+// held another drawing, the canvas set up by newCanvas, pooled PNG
+// buffers) is byte for byte the PNG that a fresh vgimg.NewWith canvas
+// gives, for every kind of figure of a fitted study.
+func TestCanvasMatchesNewWith(t *testing.T) {
+	ar1, _ := fit.ParseNoise("ar1")
+	res := studyResult(t, simulate.Options{Subjects: 1, Runs: 2, Regions: 4, Volumes: 100, Seed: 5},
+		fit.Options{HRF: fit.HRFDoubleGamma, SliceRef: 0.5, Highpass: 128, Noise: ar1, CensorFD: 0.2, Jobs: 1})
+	fw := &figureWriter{out: nil, used: map[string]bool{}}
+	for _, r := range res.Runs {
+		fw.design(r)
+		fw.displacement(r, res.Options.CensorFD)
+	}
+	for _, pk := range strongest(res) {
+		fw.timeCourse(pk)
+		fw.autocorrelation(pk)
+	}
+	if fw.err != nil {
+		t.Fatal(fw.err)
+	}
+	if len(fw.jobs) < 6 {
+		t.Fatalf("%d figures, want design, displacement, time course and autocorrelation figures", len(fw.jobs))
+	}
+	for i := range fw.jobs {
+		j := &fw.jobs[i]
+		// Leave a used image of this size in the pool, filled with ink.
+		dirty := canvases.get(j.w, j.h)
+		for k := range dirty.Pix {
+			dirty.Pix[k] = byte(k)
+		}
+		canvases.put(dirty)
+		j.render()
+		c := vgimg.NewWith(vgimg.UseWH(vg.Length(j.w)*vg.Inch/figureDPI, vg.Length(j.h)*vg.Inch/figureDPI), vgimg.UseDPI(figureDPI))
+		j.plot.Draw(draw.New(c))
+		var want bytes.Buffer
+		if err := (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(&want, c.Image()); err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(j.png.Bytes(), want.Bytes()) {
+			t.Errorf("%s: the rendered PNG (%d bytes) differs from vgimg.NewWith's (%d bytes)", j.fig.Path, j.png.Len(), want.Len())
+		}
 	}
 }

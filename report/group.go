@@ -19,12 +19,25 @@ func WriteGroupTables(out *Output, res *fit.GroupResult) error {
 		return err
 	}
 	for _, r := range res.Rows {
-		g.row(r.Contrast, r.Region, r.Term, strconv.Itoa(r.N), Num(r.Estimate), Num(r.StdError), Num(r.Statistic),
-			Num(r.DF), Num(r.PValue), Num(r.Q), Num(r.PHolm), Num(r.Effect.D), Num(r.Effect.Low), Num(r.Effect.High),
-			Num(r.Tau2))
+		g.str(r.Contrast)
+		g.str(r.Region)
+		g.str(r.Term)
+		g.integer(r.N)
+		for _, v := range []float64{r.Estimate, r.StdError, r.Statistic, r.DF, r.PValue, r.Q, r.PHolm,
+			r.Effect.D, r.Effect.Low, r.Effect.High, r.Tau2} {
+			g.num(v)
+		}
+		g.end()
 		if r.Power != nil {
-			p.row(r.Contrast, r.Region, r.Term, strconv.Itoa(r.N), Num(r.Effect.D), count(r.Power.NFor80),
-				count(r.Power.NFor90), Num(r.Power.Detectable))
+			p.str(r.Contrast)
+			p.str(r.Region)
+			p.str(r.Term)
+			p.integer(r.N)
+			p.num(r.Effect.D)
+			p.str(count(r.Power.NFor80))
+			p.str(count(r.Power.NFor90))
+			p.num(r.Power.Detectable)
+			p.end()
 		}
 	}
 	for _, t := range []*tableWriter{g, p} {

@@ -3,7 +3,7 @@ package report
 import (
 	"fmt"
 	"math"
-	"sort"
+	"slices"
 	"strings"
 
 	"github.com/tessera-fmri/tessera/fit"
@@ -137,49 +137,53 @@ func Markdown(res *fit.StudyResult, info ReportInfo) string {
 	p("Tables rank regions by |t| and show the strongest %d rows; every row is in `subject_contrasts.csv` (subject level) and `contrasts.csv` (run level). `psc` is in percent of the region's mean signal; `q` is the Benjamini-Hochberg adjusted p across regions (within one subject, or one run).\n\n", topRows)
 	for _, c := range res.Contrasts {
 		p("### Contrast `%s` = `%s`\n\n", c.Name, c.Expr)
-		var rows []fit.SubjectResult
-		for _, s := range res.Subjects {
-			if s.Contrast == c.Name {
-				rows = append(rows, s)
+		var rows []int
+		var ts []float64
+		for i := range res.Subjects {
+			if res.Subjects[i].Contrast == c.Name {
+				rows = append(rows, i)
+				ts = append(ts, math.Abs(res.Subjects[i].Statistic))
 			}
 		}
-		sort.SliceStable(rows, func(i, j int) bool { return math.Abs(rows[i].Statistic) > math.Abs(rows[j].Statistic) })
 		p("Subject level (runs combined by fixed effects):\n\n")
 		p("| subject | region | runs | psc (%%) | t | df | q |\n| --- | --- | --- | --- | --- | --- | --- |\n")
-		for i, s := range rows {
+		for i, k := range rankOrder(ts, largerFirst) {
 			if i == topRows {
 				break
 			}
+			s := &res.Subjects[rows[k]]
 			p("| %s | %s | %d | %.3f | %.2f | %d | %s |\n", s.Subject, s.Region, s.Runs, s.PSC, s.Statistic, s.DF, FormatQ(s.Q))
 		}
 		if len(rows) == 0 {
 			p("| (not estimated in any run) | | | | | | |\n")
 		}
 		type runRow struct {
-			run, region string
-			cf          fit.ContrastFit
-			q           float64
+			run    *fit.RunResult
+			region int
 		}
 		var rr []runRow
+		ts = ts[:0]
 		ci := contrastIndex(res.Contrasts, c.Name)
 		for _, r := range res.Runs {
 			if r.Fit == nil || !r.Valid[ci] {
 				continue
 			}
-			for ri, reg := range r.Fit.Regions {
-				if reg.Skip == "" {
-					rr = append(rr, runRow{r.Plan.Run.Spec.Key(), reg.Region, r.Contrasts[ci][ri], r.Q[ci][ri]})
+			for ri := range r.Fit.Regions {
+				if r.Fit.Regions[ri].Skip == "" {
+					rr = append(rr, runRow{r, ri})
+					ts = append(ts, math.Abs(r.Contrasts[ci][ri].Statistic))
 				}
 			}
 		}
-		sort.SliceStable(rr, func(i, j int) bool { return math.Abs(rr[i].cf.Statistic) > math.Abs(rr[j].cf.Statistic) })
 		p("\nRun level:\n\n")
 		p("| run | region | psc (%%) | t | df | q |\n| --- | --- | --- | --- | --- | --- |\n")
-		for i, x := range rr {
+		for i, k := range rankOrder(ts, largerFirst) {
 			if i == topRows {
 				break
 			}
-			p("| %s | %s | %.3f | %.2f | %d | %s |\n", x.run, x.region, x.cf.PSC, x.cf.Statistic, x.cf.DF, FormatQ(x.q))
+			x := rr[k]
+			cf := x.run.Contrasts[ci][x.region]
+			p("| %s | %s | %.3f | %.2f | %d | %s |\n", x.run.Plan.Run.Spec.Key(), x.run.Fit.Regions[x.region].Region, cf.PSC, cf.Statistic, cf.DF, FormatQ(x.run.Q[ci][x.region]))
 		}
 		p("\n")
 	}
@@ -343,29 +347,66 @@ func writeFTests(p func(string, ...any), res *fit.StudyResult) {
 	p("Each F test asks whether any of its rows differs from zero; a condition's own test (models with derivatives or FIR bins) asks whether the region responds at all, whatever the shape. Every row is in `ftests.csv`.\n\n")
 	for fi, t := range res.FTests {
 		type row struct {
-			run, region string
-			f           fit.FTestFit
-			q           float64
+			run    *fit.RunResult
+			region int
 		}
 		var rows []row
+		var ps []float64
 		for _, r := range res.Runs {
 			if r.Fit == nil || !r.FValid[fi] {
 				continue
 			}
-			for ri, reg := range r.Fit.Regions {
-				if reg.Skip == "" {
-					rows = append(rows, row{r.Plan.Run.Spec.Key(), reg.Region, r.FTests[fi][ri], r.FQ[fi][ri]})
+			for ri := range r.Fit.Regions {
+				if r.Fit.Regions[ri].Skip == "" {
+					rows = append(rows, row{r, ri})
+					ps = append(ps, r.FTests[fi][ri].PValue)
 				}
 			}
 		}
-		sort.SliceStable(rows, func(i, j int) bool { return rows[i].f.PValue < rows[j].f.PValue })
 		p("`%s`:\n\n| run | region | F | df | p | q |\n| --- | --- | --- | --- | --- | --- |\n", t.Name)
-		for i, x := range rows {
+		for i, k := range rankOrder(ps, smallerFirst) {
 			if i == topRows {
 				break
 			}
-			p("| %s | %s | %.2f | %d, %d | %s | %s |\n", x.run, x.region, x.f.Statistic, x.f.DFNum, x.f.DFDen, FormatQ(x.f.PValue), FormatQ(x.q))
+			x := rows[k]
+			f := x.run.FTests[fi][x.region]
+			p("| %s | %s | %.2f | %d, %d | %s | %s |\n", x.run.Plan.Run.Spec.Key(), x.run.Fit.Regions[x.region].Region, f.Statistic, f.DFNum, f.DFDen, FormatQ(f.PValue), FormatQ(x.run.FQ[fi][x.region]))
 		}
 		p("\n")
 	}
 }
+
+// rankOrder returns the indices of vs in the order that sort.SliceStable
+// puts rows compared by before on their values vs: row rankOrder[0] first.
+// It sorts small (value, index) pairs with slices.SortStableFunc, which is
+// quicker than moving whole rows through reflection. sort.SliceStable and
+// slices.SortStableFunc are the same algorithm (both generated from the
+// standard library's sort/gen_sort_variants.go), whose moves depend only on
+// the outcomes of its comparisons, so the order is the one sorting the rows
+// with sort.SliceStable gives, ties and NaNs included (TestRankOrder).
+func rankOrder(vs []float64, before func(a, b float64) bool) []int {
+	type pair struct {
+		v float64
+		i int
+	}
+	ps := make([]pair, len(vs))
+	for i, v := range vs {
+		ps[i] = pair{v, i}
+	}
+	slices.SortStableFunc(ps, func(a, b pair) int {
+		if before(a.v, b.v) {
+			return -1
+		}
+		return 0
+	})
+	order := make([]int, len(ps))
+	for i, p := range ps {
+		order[i] = p.i
+	}
+	return order
+}
+
+// largerFirst and smallerFirst are comparisons for rankOrder: larger values
+// first, smaller values first.
+func largerFirst(a, b float64) bool  { return a > b }
+func smallerFirst(a, b float64) bool { return a < b }

@@ -116,10 +116,12 @@ func Merge(dirs []string, out *Output) error {
 		if err != nil {
 			return err
 		}
-		w := csv.NewWriter(f)
-		w.Write(head)
-		w.WriteAll(rows)
-		if err := w.Error(); err != nil {
+		w := newTableWriter(f, 0)
+		w.record(head)
+		for _, r := range rows {
+			w.record(r)
+		}
+		if err := w.close(); err != nil {
 			return err
 		}
 	}

@@ -108,31 +108,39 @@ func fitStudy(ctx context.Context, fs *flag.FlagSet, m *modelFlags, args []strin
 	}
 	prov := &report.Provenance{Program: "tessera", Version: version, Command: command, Options: map[string]string{}, Timings: tm.marks, Shard: l.shard}
 	fs.VisitAll(func(f *flag.Flag) { prov.Options[f.Name] = f.Value.String() })
-	for _, in := range l.inputs {
-		h, err := report.HashFile(in)
-		if err != nil {
-			return nil, err
-		}
-		prov.Inputs = append(prov.Inputs, h)
-	}
 	prov.Warnings = res.Warnings
+	// The inputs' hashes are only needed for provenance.json, so they are
+	// computed while the results are written (reading a large study again
+	// takes a while); a hashing error still comes first, as when the
+	// hashes were computed before writing.
+	hashed := make(chan error, 1)
+	go func() {
+		for _, in := range l.inputs {
+			h, err := report.HashFile(in)
+			if err != nil {
+				hashed <- err
+				return
+			}
+			prov.Inputs = append(prov.Inputs, h)
+		}
+		hashed <- nil
+	}()
 	outp, err := report.NewOutput(outDir)
 	if err != nil {
+		if herr := <-hashed; herr != nil {
+			return nil, herr
+		}
 		return nil, err
 	}
 	files := []string{"report.md", "estimates.csv", "contrasts.csv", "subject_contrasts.csv", "diagnostics.csv", "autocorrelation.csv", "design/", "figures/", "provenance.json"}
-	if err := report.WriteTables(outp, res); err != nil {
+	werr := writeResults(outp, res, report.ReportInfo{Study: l.source, Command: quoteArgs(command), Outputs: files})
+	if herr := <-hashed; herr != nil {
 		outp.Abort()
-		return nil, err
+		return nil, herr
 	}
-	figs, err := report.WriteFigures(outp, res)
-	if err != nil {
+	if werr != nil {
 		outp.Abort()
-		return nil, err
-	}
-	if err := report.WriteMarkdown(outp, res, report.ReportInfo{Study: l.source, Command: quoteArgs(command), Outputs: files, Figures: figs}); err != nil {
-		outp.Abort()
-		return nil, err
+		return nil, werr
 	}
 	tm.mark("write")
 	if err := report.WriteProvenance(outp, prov); err != nil {
@@ -147,6 +155,25 @@ func fitStudy(ctx context.Context, fs *flag.FlagSet, m *modelFlags, args []strin
 		return nil, err
 	}
 	return res, nil
+}
+
+// writeResults writes the tables, the figures and report.md of a fit into
+// outp. The tables do not depend on the figures, so they are written while
+// the figures are drawn (report.md needs the figures' list, so it follows
+// them); the error of the tables is reported before that of the figures
+// and the report, as when they were written one after the other.
+func writeResults(outp *report.Output, res *fit.StudyResult, info report.ReportInfo) error {
+	tables := make(chan error, 1)
+	go func() { tables <- report.WriteTables(outp, res) }()
+	figs, err := report.WriteFigures(outp, res)
+	if err == nil {
+		info.Figures = figs
+		err = report.WriteMarkdown(outp, res, info)
+	}
+	if terr := <-tables; terr != nil {
+		return terr
+	}
+	return err
 }
 
 // printSummary tells what was fitted, the strongest subject-level findings
