@@ -8,6 +8,7 @@ import (
 
 	"github.com/tessera-fmri/tessera/fit"
 	"github.com/tessera-fmri/tessera/roi"
+	"github.com/tessera-fmri/tessera/simulate"
 )
 
 func blockEvents(n int, tr float64) []roi.Event {
@@ -228,6 +229,55 @@ func TestRegionBlocksIndependent(t *testing.T) {
 		a, b := all.Regions[r], one.Regions[0]
 		if a.Beta[0] != b.Beta[0] || a.StdError[0] != b.StdError[0] || a.AR[0] != b.AR[0] {
 			t.Errorf("region %d: in a block %v %v %v, alone %v %v %v", r, a.Beta[0], a.StdError[0], a.AR, b.Beta[0], b.StdError[0], b.AR)
+		}
+	}
+}
+
+// TestShortRunsEveryNoiseModel fits short event runs (40 and 60 volumes,
+// so the estimation lags are cut to a quarter of the run), with censoring
+// of high-motion volumes, with every noise model through the study path
+// the command uses: no model may fail, panic or leave a non-finite
+// estimate. Such a run once made the first pass's corrected
+// autocovariances of a region non-positive at lag 0, and the ARMA(1,1)
+// candidate of auto then indexed an empty slice.
+func TestShortRunsEveryNoiseModel(t *testing.T) {
+	for _, noise := range []string{"none", "ar1", "ar:3", "arma", "auto"} {
+		nm, err := fit.ParseNoise(noise)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, vol := range []int{40, 60} {
+			st, err := simulate.Generate(simulate.Options{Subjects: 2, Runs: 2, Regions: 5, Volumes: vol, TR: 2,
+				Design: "event", WhiteShare: 0.5, Seed: 1})
+			if err != nil {
+				t.Fatal(err)
+			}
+			var runs []*roi.Run
+			for _, r := range st.Runs {
+				runs = append(runs, &roi.Run{
+					Spec:      roi.RunSpec{Subject: r.Subject, Run: r.Run, TR: r.TR},
+					Signals:   &roi.Numeric{Names: r.Regions, Cols: r.Signals},
+					Events:    &roi.Events{Events: r.Events},
+					Confounds: &roi.Numeric{Names: simulate.MotionNames, Cols: r.Motion},
+				})
+			}
+			o := fit.Options{SliceRef: 0.5, Highpass: 128, HRF: fit.HRFDoubleGamma, Noise: nm, CensorFD: 0.2, Jobs: 1}
+			plans, err := fit.Plan(runs, o)
+			if err != nil {
+				t.Fatal(err)
+			}
+			res, err := fit.FitStudy(plans, o)
+			if err != nil {
+				t.Fatalf("%s, %d volumes: %v", noise, vol, err)
+			}
+			for _, rr := range res.Runs {
+				if rr.Fit == nil {
+					continue
+				}
+				for _, reg := range rr.Fit.Regions {
+					finite(t, noise+" "+reg.Region, append(append([]float64{}, reg.Beta...), reg.StdError...)...)
+				}
+			}
 		}
 	}
 }

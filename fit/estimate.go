@@ -303,7 +303,12 @@ func candidates(g []float64, spec estimSpec) []modelChoice {
 		if len(vars) < len(g) {
 			gl = g[:len(vars)]
 		}
-		if phi, th, v, ok := fitARMAWhittle(gl); ok && len(gl) >= 3 {
+		// (An empty gl, g_0 ≤ 0, happens when the first pass's truncated
+		// correction of a short run overshoots; the fallback takes over.)
+		if len(gl) < 3 {
+			return out
+		}
+		if phi, th, v, ok := fitARMAWhittle(gl); ok {
 			out = append(out, modelChoice{p: noiseParams{ar: []float64{phi}, ma: []float64{th}}, sigma2: v,
 				shrunk: math.Abs(phi) >= armaLimit-1e-9 || math.Abs(th) >= armaLimit-1e-9})
 		}

@@ -477,7 +477,7 @@ func FitStudyContext(ctx context.Context, plans []*RunPlan, o Options) (*StudyRe
 				if ctx.Err() != nil {
 					continue
 				}
-				res.Runs[i], errs[i] = fitPlanned(plans[i], cs, fts, o.Noise)
+				res.Runs[i], errs[i] = fitPlannedSafe(plans[i], cs, fts, o.Noise)
 				if errs[i] == nil {
 					n := done.Add(1)
 					if o.Progress != nil {
@@ -513,6 +513,21 @@ func FitStudyContext(ctx context.Context, plans []*RunPlan, o Options) (*StudyRe
 	return res, nil
 }
 
+// fitPlannedSafe is fitPlanned with a last line of defence: a panic (a
+// bug, never an expected outcome) becomes an error that names the run and
+// asks for a report, so the command still exits with a message and writes
+// no partial tables instead of printing a stack trace.
+func fitPlannedSafe(p *RunPlan, cs []Contrast, fts []FTest, noise NoiseModel) (rr *RunResult, err error) {
+	defer func() {
+		if r := recover(); r != nil {
+			rr, err = nil, fmt.Errorf("run %s: internal error while fitting (%v); this is a bug in tessera: please report it with the run's files", p.Run.Spec.Key(), r)
+		}
+	}()
+	return fitPlanned(p, cs, fts, noise)
+}
+
+// fitPlanned fits one planned run and computes its contrasts and F tests
+// with their q values across the run's regions.
 func fitPlanned(p *RunPlan, cs []Contrast, fts []FTest, noise NoiseModel) (*RunResult, error) {
 	rr := &RunResult{Plan: p}
 	if p.Skipped() {
