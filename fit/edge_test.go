@@ -281,3 +281,122 @@ func TestShortRunsEveryNoiseModel(t *testing.T) {
 		}
 	}
 }
+
+// TestConstantOverKeptVolumes: a region that is constant over every kept
+// volume and differs only at a censored one carries no information (the
+// censored volume's indicator fits it exactly) and is skipped as constant,
+// not fitted to rounding errors with a t value of order 1.
+func TestConstantOverKeptVolumes(t *testing.T) {
+	const n = 60
+	censor := make([]bool, n)
+	censor[20] = true
+	d, err := fit.BuildDesign(fit.DesignSpec{Volumes: n, TR: 2, SliceRef: 0.5, Highpass: 128, Events: blockEvents(n, 2), Censor: censor})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, level := range []float64{0, 1000} {
+		y := make([]float64, n)
+		for i := range y {
+			y[i] = level
+		}
+		y[20] = level + 1
+		for _, noise := range []string{"none", "ar1", "arma", "auto"} {
+			nm, _ := fit.ParseNoise(noise)
+			rf, err := fit.FitRun(d, []string{"r"}, [][]float64{y}, nm)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if r := rf.Regions[0]; r.Skip != "constant signal" {
+				t.Errorf("level %g, %s: skip %q, want constant signal (beta %v, se %v)", level, noise, r.Skip, r.Beta, r.StdError)
+			}
+		}
+	}
+}
+
+// TestExactFitSkipped: a region that is exactly a combination of design
+// columns has a residual of rounding errors only; it is skipped with a
+// reason instead of reporting t values of 1e13 and more, and under
+// --noise-pool it does not enter the run's noise model: the other region's
+// results are those of a fit without it (to 1e-12 relative, the rounding
+// of two fits that differ only in the order of sums).
+func TestExactFitSkipped(t *testing.T) {
+	const n = 100
+	d := edgeDesign(t, n)
+	rng := rand.New(rand.NewPCG(3, 4))
+	exact := make([]float64, n)
+	real := make([]float64, n)
+	e := 0.0
+	for i := range exact {
+		exact[i] = 1000 + 2*d.X.At(i, 0)
+		e = 0.4*e + rng.NormFloat64()
+		real[i] = 800 + 3*d.X.At(i, 0) + e
+	}
+	for _, noise := range []string{"none", "ar1", "ar:2", "arma", "auto"} {
+		for _, pool := range []bool{false, true} {
+			nm, _ := fit.ParseNoise(noise)
+			nm.Pool = pool
+			both, err := fit.FitRun(d, []string{"exact", "real"}, [][]float64{exact, real}, nm)
+			if err != nil {
+				t.Fatal(err)
+			}
+			alone, err := fit.FitRun(d, []string{"real"}, [][]float64{real}, nm)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if s := both.Regions[0].Skip; !strings.Contains(s, "fitted exactly") {
+				t.Errorf("%s pool=%v: exact region skip %q, beta %v se %v", noise, pool, s, both.Regions[0].Beta, both.Regions[0].StdError)
+			}
+			b, a := both.Regions[1], alone.Regions[0]
+			if b.Skip != "" {
+				t.Fatalf("%s pool=%v: real region skipped: %s", noise, pool, b.Skip)
+			}
+			if math.Abs(b.StdError[0]-a.StdError[0]) > 1e-12*a.StdError[0] || math.Abs(b.Beta[0]-a.Beta[0]) > 1e-12*math.Abs(a.Beta[0]) {
+				t.Errorf("%s pool=%v: real region beta %g se %g, alone %g %g", noise, pool, b.Beta[0], b.StdError[0], a.Beta[0], a.StdError[0])
+			}
+		}
+	}
+}
+
+// TestTooFewForNoiseModel: a run whose censoring leaves two stretches of
+// five kept volumes has residual degrees of freedom but no pairs of kept
+// volumes at lags 5 to 7, so the autocovariances an AR(1) is estimated
+// from are not determined. The run is refused in plain words (when it is
+// planned, and by FitRun), not with a matrix error; --noise none fits it.
+func TestTooFewForNoiseModel(t *testing.T) {
+	const n = 30
+	y := make([]float64, n)
+	rng := rand.New(rand.NewPCG(8, 9))
+	for i := range y {
+		y[i] = 500 + rng.NormFloat64()
+		if i >= 5 && i < 25 {
+			y[i] = math.NaN()
+		}
+	}
+	run := &roi.Run{Spec: roi.RunSpec{Subject: "01", Run: "1", TR: 2, Signals: "sig.csv"},
+		Signals: &roi.Numeric{Names: []string{"r"}, Cols: [][]float64{y}},
+		Events:  &roi.Events{Events: []roi.Event{{Onset: 0, Duration: 6, Amplitude: 1, Condition: "a"}, {Onset: 50, Duration: 6, Amplitude: 1, Condition: "a"}}}}
+	for _, noise := range []string{"ar1", "arma", "auto"} {
+		nm, _ := fit.ParseNoise(noise)
+		o := fit.Options{SliceRef: 0.5, Highpass: 128, Noise: nm, MissingCensor: true}
+		_, err := fit.Plan([]*roi.Run{run}, o)
+		if err == nil || !strings.Contains(err.Error(), "run 01_1:") || !strings.Contains(err.Error(), "residual degrees of freedom, too few to estimate the "+noise+" noise model") {
+			t.Errorf("%s: plan error %v", noise, err)
+		}
+	}
+	o := fit.Options{SliceRef: 0.5, Highpass: 128, Noise: fit.NoiseModel{Name: "none"}.Resolve(), MissingCensor: true}
+	plans, err := fit.Plan([]*roi.Run{run}, o)
+	if err != nil {
+		t.Fatalf("--noise none: %v", err)
+	}
+	res, err := fit.FitStudy(plans, o)
+	if err != nil {
+		t.Fatalf("--noise none: %v", err)
+	}
+	if r := res.Runs[0].Fit.Regions[0]; r.Skip != "" || !(r.StdError[0] > 0) {
+		t.Errorf("--noise none: region %+v", r)
+	}
+	nm, _ := fit.ParseNoise("ar1")
+	if _, err := fit.FitRun(plans[0].Design, []string{"r"}, plans[0].Y, nm); err == nil || !strings.Contains(err.Error(), "too few to estimate the ar1 noise model") {
+		t.Errorf("FitRun error %v", err)
+	}
+}

@@ -133,7 +133,7 @@ func putBuffer(b []float64) {
 // up to batchRows regions at a time.
 func (e *engine) qtBatch(ws []*regionWork, src func(*regionWork) []float64, dst func(*regionWork) []float64) {
 	n, k := e.b.n, e.b.k
-	q := blas64.General{Rows: n, Cols: k, Stride: k, Data: e.b.q}
+	qt := blas64.General{Rows: k, Cols: n, Stride: n, Data: e.b.qt}
 	for lo := 0; lo < len(ws); lo += batchRows {
 		hi := min(lo+batchRows, len(ws))
 		m := hi - lo
@@ -142,7 +142,7 @@ func (e *engine) qtBatch(ws []*regionWork, src func(*regionWork) []float64, dst 
 			copy(in[i*n:(i+1)*n], src(w))
 		}
 		out := e.batchOut(m * k)
-		blas64.Gemm(blas.NoTrans, blas.NoTrans, 1, blas64.General{Rows: m, Cols: n, Stride: n, Data: in}, q,
+		blas64.Gemm(blas.NoTrans, blas.Trans, 1, blas64.General{Rows: m, Cols: n, Stride: n, Data: in}, qt,
 			0, blas64.General{Rows: m, Cols: k, Stride: k, Data: out})
 		for i, w := range ws[lo:hi] {
 			copy(dst(w), out[i*k:(i+1)*k])
@@ -205,9 +205,11 @@ func fitRunNoise(d *Design, names []string, y [][]float64, noise NoiseModel) (*R
 	for r, yr := range y {
 		out := &rf.Regions[r]
 		out.Region = names[r]
-		mean, tss := meanSS(yr)
-		out.Baseline = baseline(yr, d.Censored)
-		if tss <= 1e-24*math.Max(1, mean*mean)*float64(n) {
+		// Censored volumes are fitted exactly by their indicator terms, so
+		// only the kept volumes say whether the signal varies.
+		mean, tss, kept := keptMeanSS(yr, d.Censored)
+		out.Baseline = mean
+		if tss <= 1e-24*math.Max(1, mean*mean)*float64(kept) {
 			out.Skip = "constant signal"
 			continue
 		}
@@ -216,7 +218,7 @@ func fitRunNoise(d *Design, names []string, y [][]float64, noise NoiseModel) (*R
 	if noise.Kind != NoiseOLS {
 		e.L = estimationLags(noise, n)
 		if e.corr, err = b.olsCorrection(e.L); err != nil {
-			return nil, err
+			return nil, tooFewForNoise(d, noise, e.L)
 		}
 		e.L = e.corr.lags
 	}
@@ -240,6 +242,38 @@ func fitRunNoise(d *Design, names []string, y [][]float64, noise NoiseModel) (*R
 	return rf, nil
 }
 
+// tooFewForNoise is the error for a design whose residual degrees of
+// freedom cannot determine the autocovariances at lags 0..L that the noise
+// model is fitted to: the first-pass bias correction (olsCorrection) is
+// then singular, which happens when n - k is about L or less, or when
+// censoring leaves no pairs of kept volumes at some lag.
+func tooFewForNoise(d *Design, noise NoiseModel, L int) error {
+	n, k := d.X.Dims()
+	return fmt.Errorf("%d volumes and %d model terms (%d of them for censored volumes) leave %d residual degrees of freedom, too few to estimate the %s noise model from the residual autocovariances at lags 0 to %d; use --noise none, fewer terms, less censoring or a longer run",
+		n, k, d.CensoredCount(), n-k, noise.Name, L)
+}
+
+// CheckNoise reports whether the design leaves enough residual degrees of
+// freedom to estimate the noise model (see tooFewForNoise), so that a run
+// that FitRun would refuse is refused when the study is planned. It is nil
+// for --noise none.
+func CheckNoise(d *Design, noise NoiseModel) error {
+	noise = noise.Resolve()
+	if noise.Kind == NoiseOLS {
+		return nil
+	}
+	b, err := newRunBasis(d.X)
+	if err != nil {
+		return err
+	}
+	n, _ := d.X.Dims()
+	L := estimationLags(noise, n)
+	if _, err := b.olsCorrection(L); err != nil {
+		return tooFewForNoise(d, noise, L)
+	}
+	return nil
+}
+
 // regionBlock is how many regions are fitted together when regions are
 // independent: large enough for the batched products to run at full speed.
 const regionBlock = 2048
@@ -248,6 +282,7 @@ const regionBlock = 2048
 func (e *engine) fitBlock(ws []*regionWork, rf *RunFit) error {
 	k := e.b.k
 	e.start(ws)
+	ws = e.dropExactFits(ws, rf)
 	defer func() {
 		// The results were copied out; the work space goes back.
 		putBuffer(e.vecs)
@@ -321,6 +356,40 @@ func (e *engine) start(ws []*regionWork) {
 		copy(w.r0, w.resid)
 		copy(w.gamma, w.a0)
 	}
+}
+
+// exactFitTol is the relative size ||r_0|| / ||y|| below which the OLS
+// residual r_0 of a region is taken to be zero to working precision: n·u
+// (u = 2^-53 the unit roundoff), the usual tolerance for a computed zero in
+// a length-n Householder computation (Higham 2002, Accuracy and Stability
+// of Numerical Algorithms, §19.3 and §20.2: the computed residual is exact
+// for data perturbed by O(n·u) in relative terms). Such a residual is the
+// rounding of the fit, not noise, and no noise model, standard error or t
+// value can be estimated from it.
+func exactFitTol(n int) float64 { return float64(n) * 0x1p-53 }
+
+// dropExactFits marks the regions that the design fits exactly (the OLS
+// residual is zero to working precision, see exactFitTol) as skipped and
+// returns the others (||y|| over the kept volumes: a censored volume is
+// fitted exactly by its indicator whatever its value), so that they neither report a t value made of
+// rounding errors nor enter a pooled noise model.
+func (e *engine) dropExactFits(ws []*regionWork, rf *RunFit) []*regionWork {
+	tol := exactFitTol(e.b.n)
+	kept := ws[:0]
+	for _, w := range ws {
+		yy := 0.0
+		for t, v := range w.y {
+			if e.d.Censored == nil || !e.d.Censored[t] {
+				yy += v * v
+			}
+		}
+		if vdot(w.r0, w.r0) <= tol*tol*yy {
+			rf.Regions[w.idx].Skip = "fitted exactly by the design: no residual variation"
+			continue
+		}
+		kept = append(kept, w)
+	}
+	return kept
 }
 
 // fitRegions estimates a model per region.

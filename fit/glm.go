@@ -10,8 +10,10 @@ import (
 // RegionFit is the fit of one region in one run.
 type RegionFit struct {
 	Region string
-	// Skip says why the region was not fitted ("constant signal"); the
-	// numeric fields are then unset.
+	// Skip says why the region was not fitted: "constant signal" over the
+	// kept volumes, or a signal the design fits exactly (a residual of
+	// rounding errors only, see exactFitTol); the numeric fields are then
+	// unset.
 	Skip     string
 	Beta     []float64
 	StdError []float64
@@ -27,7 +29,7 @@ type RegionFit struct {
 	// units: for AR(P) the marginal s·sqrt(g_0), s² the innovation
 	// variance; for OLS the residual standard deviation.
 	Sigma    float64
-	RSquared float64 // 1 - sum(y - Xβ)² / sum(y - ȳ)², on the unwhitened data
+	RSquared float64 // 1 - sum(y - Xβ)² / sum(y - ȳ)² over the kept volumes, on the unwhitened data
 	// AR holds a_1..a_P of an AR(P) model, or φ of ARMA(1,1); MA holds θ
 	// of ARMA(1,1) and is empty for AR models.
 	AR, MA   []float64
@@ -74,16 +76,24 @@ func FitRun(d *Design, names []string, y [][]float64, noise NoiseModel) (*RunFit
 	return fitRunNoise(d, names, y, noise)
 }
 
-// baseline is the mean signal over the volumes that are not censored.
-func baseline(y []float64, censored []bool) float64 {
-	s, n := 0.0, 0
+// keptMeanSS returns the mean of y over the volumes that are not censored,
+// the sum of squared deviations from it over the same volumes, and their
+// number.
+func keptMeanSS(y []float64, censored []bool) (mean, ss float64, n int) {
 	for t, v := range y {
 		if censored == nil || !censored[t] {
-			s += v
+			mean += v
 			n++
 		}
 	}
-	return s / float64(n)
+	mean /= float64(n)
+	for t, v := range y {
+		if censored == nil || !censored[t] {
+			d := v - mean
+			ss += d * d
+		}
+	}
+	return mean, ss, n
 }
 
 func meanSS(y []float64) (mean, ss float64) {

@@ -317,6 +317,9 @@ func planRun(r *roi.Run, o Options) (*RunPlan, error) {
 	if err != nil {
 		return nil, err
 	}
+	if err := CheckNoise(d, o.Noise.ForTR(tr)); err != nil {
+		return nil, fmt.Errorf("run %s: %v", key, err)
+	}
 	p.Condition = cond
 	return p, nil
 }
