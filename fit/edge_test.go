@@ -400,3 +400,86 @@ func TestTooFewForNoiseModel(t *testing.T) {
 		t.Errorf("FitRun error %v", err)
 	}
 }
+
+// TestPSCUndefinedForDemeanedSignals fits a study in which one region's
+// signals were demeaned before extraction (mean about zero, below the noise)
+// and another's negated (mean negative): their percent signal change must
+// be NaN, written as an empty cell, with a warning naming them, while the
+// estimates and t values stay, and the raw regions keep a finite psc. The
+// rule (baseline positive and at least sigma) is common practice for raw
+// BOLD signals, whose tSNR is in the tens to hundreds.
+func TestPSCUndefinedForDemeanedSignals(t *testing.T) {
+	st, err := simulate.Generate(simulate.Options{Subjects: 1, Runs: 2, Regions: 4, Volumes: 200, TR: 2,
+		Design: "event", WhiteShare: 0.5, Seed: 4})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var runs []*roi.Run
+	for _, r := range st.Runs {
+		sig := make([][]float64, len(r.Signals))
+		for i, y := range r.Signals {
+			sig[i] = append([]float64(nil), y...)
+		}
+		mean := 0.0
+		for _, v := range sig[0] {
+			mean += v
+		}
+		mean /= float64(len(sig[0]))
+		for i := range sig[0] {
+			sig[0][i] -= mean
+			sig[1][i] = -sig[1][i]
+		}
+		runs = append(runs, &roi.Run{
+			Spec:      roi.RunSpec{Subject: r.Subject, Run: r.Run, TR: r.TR},
+			Signals:   &roi.Numeric{Names: r.Regions, Cols: sig},
+			Events:    &roi.Events{Events: r.Events},
+			Confounds: &roi.Numeric{Names: simulate.MotionNames, Cols: r.Motion},
+		})
+	}
+	nm, _ := fit.ParseNoise("ar1")
+	o := fit.Options{SliceRef: 0.5, Highpass: 128, HRF: fit.HRFDoubleGamma, Noise: nm, Jobs: 1}
+	plans, err := fit.Plan(runs, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := fit.FitStudy(plans, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	checked := 0
+	for _, rr := range res.Runs {
+		for ri, reg := range rr.Fit.Regions {
+			for ci := range rr.Contrasts {
+				if !rr.Valid[ci] {
+					continue
+				}
+				c := rr.Contrasts[ci][ri]
+				checked++
+				if math.IsNaN(c.Statistic) || math.IsNaN(c.Estimate) {
+					t.Errorf("%s: estimate or t missing", reg.Region)
+				}
+				if undefined := ri < 2; undefined != math.IsNaN(c.PSC) {
+					t.Errorf("%s (baseline %.3g, sigma %.3g): psc %v", reg.Region, reg.Baseline, reg.Sigma, c.PSC)
+				}
+			}
+		}
+	}
+	if checked == 0 || len(res.Subjects) == 0 {
+		t.Fatalf("nothing checked: %d run contrasts, %d subject rows", checked, len(res.Subjects))
+	}
+	for _, s := range res.Subjects {
+		if undefined := s.Region == st.Runs[0].Regions[0] || s.Region == st.Runs[0].Regions[1]; undefined != math.IsNaN(s.PSC) {
+			t.Errorf("subject row %s: psc %v", s.Region, s.PSC)
+		}
+	}
+	warned := false
+	for _, w := range res.Warnings {
+		if strings.Contains(w, "percent signal change is undefined for 2 region(s)") &&
+			strings.Contains(w, st.Runs[0].Regions[0]) && strings.Contains(w, st.Runs[0].Regions[1]) {
+			warned = true
+		}
+	}
+	if !warned {
+		t.Errorf("no warning naming the demeaned regions: %q", res.Warnings)
+	}
+}

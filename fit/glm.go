@@ -142,9 +142,27 @@ func (f *RegionFit) Contrast(c []float64) ContrastFit {
 	return ContrastFit{
 		Estimate: est, StdError: se, Statistic: t, DF: f.DF,
 		PValue: TwoSidedP(t, float64(f.DF)),
-		PSC:    100 * est / f.Baseline,
+		PSC:    f.PSC(est),
 	}
 }
+
+// PSC returns the percent signal change of an estimate, 100 · est /
+// baseline, or NaN where percent signal change is undefined: a baseline (the
+// mean signal over the kept volumes) that is not positive or is below the
+// modelled noise standard deviation (tSNR under 1). Raw fMRI signals have a
+// large positive mean, with tSNR in the tens to hundreds (common practice);
+// signals that were demeaned or z-scored before extraction do not, and
+// dividing by their mean would give a large number of arbitrary sign. A NaN
+// is written as an empty cell, which the group level reports as missing.
+func (f *RegionFit) PSC(est float64) float64 {
+	if !f.HasPSC() {
+		return math.NaN()
+	}
+	return 100 * est / f.Baseline
+}
+
+// HasPSC reports whether percent signal change is defined (see PSC).
+func (f *RegionFit) HasPSC() bool { return f.Baseline > 0 && f.Baseline >= f.Sigma }
 
 // Whitening is an exact whitening transform of a noise model.
 type Whitening interface {

@@ -561,6 +561,15 @@ func fitPlanned(p *RunPlan, cs []Contrast, fts []FTest, noise NoiseModel) (*RunR
 			shrunk = append(shrunk, reg.Region)
 		}
 	}
+	var noPSC []string
+	for _, reg := range f.Regions {
+		if reg.Skip == "" && !reg.HasPSC() {
+			noPSC = append(noPSC, fmt.Sprintf("%q", reg.Region))
+		}
+	}
+	if len(noPSC) > 0 {
+		rr.Warnings = append(rr.Warnings, fmt.Sprintf("run %s: percent signal change is undefined for %d region(s) (%s) and left empty: their mean signal is not positive or is below the noise level, so the signals are not in raw units (demeaned or z-scored?); give raw signals, or use `group --measure estimate`", p.Run.Spec.Key(), len(noPSC), strings.Join(noPSC, ", ")))
+	}
 	if len(shrunk) > 0 {
 		rr.Warnings = append(rr.Warnings, fmt.Sprintf("run %s: the noise model of %d region(s) was at the edge of stationarity and was held inside it (%s); their residual autocorrelation is strong: check drift and motion terms", p.Run.Spec.Key(), len(shrunk), strings.Join(shrunk, ", ")))
 	}

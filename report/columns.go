@@ -48,7 +48,7 @@ var (
 		{"statistic", "t = estimate / std_error", ""},
 		{"df", "residual degrees of freedom, volumes - rank of the design", ""},
 		{"p_value", "two-sided p from Student's t with df", ""},
-		{"psc", "100 * estimate / baseline for condition terms: the peak response to one typical event; empty for other terms", "percent of baseline"},
+		{"psc", "100 * estimate / baseline for condition terms: the peak response to one typical event; empty for other terms, and where the baseline is not positive or below sigma (signals not in raw units)", "percent of baseline"},
 	}}
 	Contrasts = TableDef{"contrasts.csv", "subject, session, run, region, contrast", []ColumnDef{
 		colSubject, colSession, colRun, colRegion,
@@ -59,7 +59,7 @@ var (
 		{"df", "residual degrees of freedom of the run", ""},
 		{"p_value", "two-sided p from Student's t with df", ""},
 		{"q_value", "Benjamini-Hochberg adjusted p across the regions of this run and contrast", ""},
-		{"psc", "100 * estimate / baseline", "percent of baseline"},
+		{"psc", "100 * estimate / baseline; empty where the baseline is not positive or below sigma (signals not in raw units)", "percent of baseline"},
 	}}
 	SubjectContrasts = TableDef{"subject_contrasts.csv", "subject, region, contrast", []ColumnDef{
 		colSubject, colRegion,
@@ -71,7 +71,7 @@ var (
 		{"df", "sum of the runs' degrees of freedom", ""},
 		{"p_value", "two-sided p from Student's t with df", ""},
 		{"q_value", "Benjamini-Hochberg adjusted p across the regions of this subject and contrast", ""},
-		{"psc", "the runs' psc averaged with the same weights", "percent of baseline"},
+		{"psc", "the runs' psc averaged with the same weights; empty if any run's is", "percent of baseline"},
 	}}
 	Diagnostics = TableDef{"diagnostics.csv", "subject, session, run, region", []ColumnDef{
 		colSubject, colSession, colRun, colRegion,

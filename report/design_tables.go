@@ -175,7 +175,7 @@ func writeResponses(out *Output, res *fit.StudyResult) error {
 				rt.num(t.Time)
 				rt.num(reg.Beta[j])
 				rt.num(reg.StdError[j])
-				rt.num(100 * reg.Beta[j] / reg.Baseline)
+				rt.num(reg.PSC(reg.Beta[j]))
 				rt.end()
 			}
 		}

@@ -748,7 +748,7 @@ func (fw *figureWriter) fir(res *fit.StudyResult, cond string) {
 			continue // bins differ from the first run's; not averaged
 		}
 		for _, reg := range r.Fit.Regions {
-			if reg.Skip != "" || reg.Baseline == 0 {
+			if reg.Skip != "" || !reg.HasPSC() {
 				continue
 			}
 			c := curves[reg.Region]
@@ -758,7 +758,7 @@ func (fw *figureWriter) fir(res *fit.StudyResult, cond string) {
 				order = append(order, reg.Region)
 			}
 			for b, j := range cols {
-				c.sum[b] += 100 * reg.Beta[j] / reg.Baseline
+				c.sum[b] += reg.PSC(reg.Beta[j])
 				c.count[b]++
 			}
 		}

@@ -90,7 +90,7 @@ func estimateRows(est *tableWriter, rr *fit.RunResult, regions []fit.RegionFit) 
 			est.integer(reg.DF)
 			est.num(fit.TwoSidedP(t, df))
 			if term.Kind == fit.TermCondition || term.Kind == fit.TermFIR {
-				est.num(100 * reg.Beta[j] / reg.Baseline)
+				est.num(reg.PSC(reg.Beta[j]))
 			} else {
 				est.str("")
 			}
