@@ -252,15 +252,7 @@ func TestShortRunsEveryNoiseModel(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			var runs []*roi.Run
-			for _, r := range st.Runs {
-				runs = append(runs, &roi.Run{
-					Spec:      roi.RunSpec{Subject: r.Subject, Run: r.Run, TR: r.TR},
-					Signals:   &roi.Numeric{Names: r.Regions, Cols: r.Signals},
-					Events:    &roi.Events{Events: r.Events},
-					Confounds: &roi.Numeric{Names: simulate.MotionNames, Cols: r.Motion},
-				})
-			}
+			runs := st.Inputs()
 			o := fit.Options{SliceRef: 0.5, Highpass: 128, HRF: fit.HRFDoubleGamma, Noise: nm, CensorFD: 0.2, Jobs: 1}
 			plans, err := fit.Plan(runs, o)
 			if err != nil {
@@ -414,12 +406,9 @@ func TestPSCUndefinedForDemeanedSignals(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	var runs []*roi.Run
-	for _, r := range st.Runs {
-		sig := make([][]float64, len(r.Signals))
-		for i, y := range r.Signals {
-			sig[i] = append([]float64(nil), y...)
-		}
+	runs := st.Inputs()
+	for _, r := range runs {
+		sig := r.Signals.Cols
 		mean := 0.0
 		for _, v := range sig[0] {
 			mean += v
@@ -429,12 +418,6 @@ func TestPSCUndefinedForDemeanedSignals(t *testing.T) {
 			sig[0][i] -= mean
 			sig[1][i] = -sig[1][i]
 		}
-		runs = append(runs, &roi.Run{
-			Spec:      roi.RunSpec{Subject: r.Subject, Run: r.Run, TR: r.TR},
-			Signals:   &roi.Numeric{Names: r.Regions, Cols: sig},
-			Events:    &roi.Events{Events: r.Events},
-			Confounds: &roi.Numeric{Names: simulate.MotionNames, Cols: r.Motion},
-		})
 	}
 	nm, _ := fit.ParseNoise("ar1")
 	o := fit.Options{SliceRef: 0.5, Highpass: 128, HRF: fit.HRFDoubleGamma, Noise: nm, Jobs: 1}

@@ -17,7 +17,6 @@ import (
 	"gonum.org/v1/plot/vg/vgimg"
 
 	"github.com/tessera-fmri/tessera/fit"
-	"github.com/tessera-fmri/tessera/roi"
 	"github.com/tessera-fmri/tessera/simulate"
 )
 
@@ -46,16 +45,7 @@ func studyResult(t testing.TB, so simulate.Options, o fit.Options) *fit.StudyRes
 	if err != nil {
 		t.Fatal(err)
 	}
-	var runs []*roi.Run
-	for _, r := range st.Runs {
-		runs = append(runs, &roi.Run{
-			Spec:      roi.RunSpec{Subject: r.Subject, Run: r.Run, TR: r.TR},
-			Signals:   &roi.Numeric{Names: r.Regions, Cols: r.Signals},
-			Events:    &roi.Events{Events: r.Events},
-			Confounds: &roi.Numeric{Names: simulate.MotionNames, Cols: r.Motion},
-		})
-	}
-	plans, err := fit.Plan(runs, o)
+	plans, err := fit.Plan(st.Inputs(), o)
 	if err != nil {
 		t.Fatal(err)
 	}

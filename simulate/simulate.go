@@ -298,3 +298,19 @@ func (o *Options) events(rng *rand.Rand) []roi.Event {
 		evs[len(evs)-1].Onset = math.Round(evs[len(evs)-1].Onset*1000) / 1000
 	}
 }
+
+// Inputs returns the study as the runs that roi reads from a written study
+// (signals, events, and the motion estimates as the confounds table), for
+// fitting a simulated study in memory. The runs share the study's slices.
+func (s *Study) Inputs() []*roi.Run {
+	runs := make([]*roi.Run, len(s.Runs))
+	for i, r := range s.Runs {
+		runs[i] = &roi.Run{
+			Spec:      roi.RunSpec{Subject: r.Subject, Run: r.Run, TR: r.TR},
+			Signals:   &roi.Numeric{Names: r.Regions, Cols: r.Signals},
+			Events:    &roi.Events{Events: r.Events},
+			Confounds: &roi.Numeric{Names: MotionNames, Cols: r.Motion},
+		}
+	}
+	return runs
+}
