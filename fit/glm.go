@@ -47,8 +47,10 @@ type RegionFit struct {
 	NoisePasses int
 	// Residual checks on the whitened residuals.
 	DurbinWatson float64
-	LjungBoxP    float64
-	NormalityP   float64
+	// LjungBoxP is NaN when the lag leaves no degrees of freedom after
+	// the noise parameters (ar:8 on runs under about 90 volumes).
+	LjungBoxP  float64
+	NormalityP float64
 	// RawACF and WhitenedACF are the residual autocorrelations at lags
 	// 1..LjungBoxLag(volumes) before and after whitening.
 	RawACF, WhitenedACF []float64

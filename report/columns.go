@@ -84,7 +84,7 @@ var (
 		{"ar_order", "AR order P (0 for none; 1 for arma)", ""},
 		{"ar_coefficients", "a_1 ... a_P of e_t = a_1 e_{t-1} + ... + a_P e_{t-P} + u_t, space-separated, bias-corrected; for arma φ of e_t = φ e_{t-1} + u_t + θ u_{t-1}", ""},
 		{"durbin_watson", "Durbin-Watson statistic of the whitened residuals (about 2 when white)", ""},
-		{"ljung_box_p", "Ljung-Box p on the whitened residuals, lag min(10, volumes/5), df lag - (number of noise parameters: P, or 2 for arma)", ""},
+		{"ljung_box_p", "Ljung-Box p on the whitened residuals, lag min(10, volumes/5), df lag - (number of noise parameters: P, or 2 for arma); empty when that df is below 1", ""},
 		{"normality_p", "Jarque-Bera p on the whitened residuals", ""},
 		{"tsnr", "baseline / sigma", ""},
 		{"ma_coefficients", "for arma, θ of e_t = φ e_{t-1} + u_t + θ u_{t-1}; empty for AR models", ""},
