@@ -3,6 +3,8 @@ package fit
 import (
 	"math"
 
+	"gonum.org/v1/gonum/floats"
+
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -100,7 +102,9 @@ func cholInverse(l []float64, k int, inv, w []float64) {
 	}
 }
 
-// axpy sets y += a x (len(y) = len(x)), unrolled by four.
+// axpy sets y += a x (len(y) = len(x)), unrolled by four. (gonum's
+// assembly kernel, floats.AddScaled, measured no faster on the short rows
+// it is used for.)
 func axpy(y []float64, a float64, x []float64) {
 	x = x[:len(y)]
 	i := 0
@@ -115,21 +119,11 @@ func axpy(y []float64, a float64, x []float64) {
 	}
 }
 
-// vdot returns sum x_i y_i with four accumulators.
+// vdot returns sum x_i y_i (len(y) ≥ len(x)) with gonum's assembly kernel
+// (floats.Dot); against a Go loop with four accumulators it made
+// BenchmarkFitRunAuto 7% faster, measured alternately.
 func vdot(x, y []float64) float64 {
-	y = y[:len(x)]
-	var s0, s1, s2, s3 float64
-	i := 0
-	for ; i+3 < len(x); i += 4 {
-		s0 += x[i] * y[i]
-		s1 += x[i+1] * y[i+1]
-		s2 += x[i+2] * y[i+2]
-		s3 += x[i+3] * y[i+3]
-	}
-	for ; i < len(x); i++ {
-		s0 += x[i] * y[i]
-	}
-	return (s0 + s1) + (s2 + s3)
+	return floats.Dot(x, y[:len(x)])
 }
 
 // lagSums returns c_j = sum_t r_t r_{t+j} for j = 0..lags (lags < len(r)).
