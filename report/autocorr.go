@@ -24,17 +24,9 @@ var Autocorrelation = TableDef{"autocorrelation.csv", "subject, session, run, re
 // were not fitted have no rows. Rows are formatted in parts of
 // partRegions regions (see writeParts).
 func writeAutocorrelation(out *Output, res *fit.StudyResult) error {
-	var parts []func(*tableWriter)
-	for _, rr := range res.Runs {
-		if rr.Fit == nil {
-			continue
-		}
-		for lo := 0; lo < len(rr.Fit.Regions); lo += partRegions {
-			regions := rr.Fit.Regions[lo:min(lo+partRegions, len(rr.Fit.Regions))]
-			parts = append(parts, func(t *tableWriter) { autocorrelationRows(t, rr.Plan.Run.Spec, regions) })
-		}
-	}
-	return writeParts(out, Autocorrelation, parts)
+	return writeParts(out, Autocorrelation, regionParts(res, func(t *tableWriter, rr *fit.RunResult, regions []fit.RegionFit) {
+		autocorrelationRows(t, rr.Plan.Run.Spec, regions)
+	}))
 }
 
 // autocorrelationRows appends the autocorrelation rows of the given

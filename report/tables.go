@@ -54,6 +54,13 @@ func parallel(jobs ...func() error) error {
 // writeEstimates writes estimates.csv: one row per fitted region and term,
 // formatted in parts of partRegions regions (see writeParts).
 func writeEstimates(out *Output, res *fit.StudyResult) error {
+	return writeParts(out, Estimates, regionParts(res, estimateRows))
+}
+
+// regionParts splits the fitted runs of res into parts of partRegions
+// regions, in run and region order, each formatted by rows (see
+// writeParts).
+func regionParts(res *fit.StudyResult, rows func(t *tableWriter, rr *fit.RunResult, regions []fit.RegionFit)) []func(*tableWriter) {
 	var parts []func(*tableWriter)
 	for _, rr := range res.Runs {
 		if rr.Fit == nil {
@@ -61,10 +68,10 @@ func writeEstimates(out *Output, res *fit.StudyResult) error {
 		}
 		for lo := 0; lo < len(rr.Fit.Regions); lo += partRegions {
 			regions := rr.Fit.Regions[lo:min(lo+partRegions, len(rr.Fit.Regions))]
-			parts = append(parts, func(t *tableWriter) { estimateRows(t, rr, regions) })
+			parts = append(parts, func(t *tableWriter) { rows(t, rr, regions) })
 		}
 	}
-	return writeParts(out, Estimates, parts)
+	return parts
 }
 
 // estimateRows appends the estimates rows of the given regions of run rr.
