@@ -195,6 +195,13 @@ func (f *RegionFit) factorProduct(dst, c []float64) []float64 {
 	if dst == nil {
 		dst = make([]float64, k)
 	}
+	if f.covFactor == nil {
+		// Released (dropCovariance) or never set: no variance to give.
+		for j := range dst {
+			dst[j] = math.NaN()
+		}
+		return dst
+	}
 	clear(dst)
 	for i, ci := range c {
 		if ci != 0 {
@@ -205,8 +212,12 @@ func (f *RegionFit) factorProduct(dst, c []float64) []float64 {
 	return dst
 }
 
-// Cov returns the covariance matrix of Beta, s G G'.
+// Cov returns the covariance matrix of Beta, s G G', or nil once the run's
+// covariances were released (large studies, after their contrasts).
 func (f *RegionFit) Cov() *mat.SymDense {
+	if f.covFactor == nil {
+		return nil
+	}
 	k := len(f.Beta)
 	out := mat.NewSymDense(k, nil)
 	g := f.covFactor
