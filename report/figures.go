@@ -543,15 +543,23 @@ func fitted(x *mat.Dense, beta []float64) []float64 {
 	return v.RawVector().Data
 }
 
+// observedFitted returns the pick's observed signal over the kept volumes
+// and its fitted values X β; ok is false when the signals are not at hand.
+func observedFitted(pk pick) (y, yhat []float64, ok bool) {
+	ys, err := pk.run.Plan.Signals()
+	if err != nil || ys == nil {
+		return nil, nil, false
+	}
+	return ys[pk.index], fitted(pk.run.Plan.Design.X, pk.region.Beta), true
+}
+
 // timeCourse draws the observed signal and the fitted model of one pick.
 func (fw *figureWriter) timeCourse(pk pick) {
 	r := pk.run
-	ys, err := r.Plan.Signals()
-	if err != nil || ys == nil {
+	y, yhat, ok := observedFitted(pk)
+	if !ok {
 		return
 	}
-	y := ys[pk.index]
-	yhat := fitted(r.Plan.Design.X, pk.region.Beta)
 	tr := r.Plan.TR
 	obs := make(plotter.XYs, len(y))
 	fitXY := make(plotter.XYs, len(y))
@@ -602,12 +610,10 @@ func autocorr(e []float64, lags int) []float64 {
 // region's whitener, RegionFit.NoiseWhitener).
 func (fw *figureWriter) autocorrelation(pk pick) {
 	r := pk.run
-	ys, err := r.Plan.Signals()
-	if err != nil || ys == nil {
+	y, yhat, ok := observedFitted(pk)
+	if !ok {
 		return
 	}
-	y := ys[pk.index]
-	yhat := fitted(r.Plan.Design.X, pk.region.Beta)
 	raw := make([]float64, len(y))
 	for t := range y {
 		raw[t] = y[t] - yhat[t]
