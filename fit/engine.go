@@ -54,7 +54,8 @@ type regionWork struct {
 	idx   int
 	name  string
 	y     []float64
-	tss   float64
+	tss   float64   // sum of squares about the mean, kept volumes
+	yy    float64   // sum of squares, kept volumes: tss + kept·mean²
 	r0    []float64 // OLS residuals
 	resid []float64 // residuals of the current fit
 	w     []float64 // scratch: V^-1 r_0, whitened series
@@ -213,7 +214,7 @@ func fitRunNoise(d *Design, names []string, y [][]float64, noise NoiseModel) (*R
 			out.Skip = "constant signal"
 			continue
 		}
-		ws = append(ws, &regionWork{idx: r, name: names[r], y: yr, tss: tss})
+		ws = append(ws, &regionWork{idx: r, name: names[r], y: yr, tss: tss, yy: tss + float64(kept)*mean*mean})
 	}
 	if noise.Kind != NoiseOLS {
 		e.L = estimationLags(noise, n)
@@ -377,13 +378,7 @@ func (e *engine) dropExactFits(ws []*regionWork, rf *RunFit) []*regionWork {
 	tol := exactFitTol(e.b.n)
 	kept := ws[:0]
 	for _, w := range ws {
-		yy := 0.0
-		for t, v := range w.y {
-			if e.d.Censored == nil || !e.d.Censored[t] {
-				yy += v * v
-			}
-		}
-		if vdot(w.r0, w.r0) <= tol*tol*yy {
+		if vdot(w.r0, w.r0) <= tol*tol*w.yy {
 			rf.Regions[w.idx].Skip = "fitted exactly by the design: no residual variation"
 			continue
 		}
