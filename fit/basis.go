@@ -215,10 +215,24 @@ func (b *runBasis) rinvFactor() []float64 {
 // run; the corrected autocovariances of a region are g = M^-1 c. This is the
 // first pass only: later passes use the exact correction for GLS residuals
 // (see correctGLS), so the truncation at L does not remain in the estimate.
+//
+// M is singular when the residuals cannot determine the autocovariances:
+// fewer residual degrees of freedom than lags, or no pair of kept volumes at
+// some lag. Rounding then leaves a condition number of 1e14 to 1e18, near
+// the limit of double precision, where whether an inversion succeeds
+// depends on the order of summation; runs that do determine them measured
+// below 400 over the test suite. A condition number above
+// maxCorrectionCond is taken as singular.
 type olsCorrection struct {
 	lags int
 	minv []float64 // (L+1)×(L+1)
 }
+
+// maxCorrectionCond is the largest condition number of M accepted: g =
+// M^-1 c amplifies the relative rounding of the lag sums (about 1e-16) by
+// up to this factor, so the corrected autocovariances keep at least six
+// significant digits.
+const maxCorrectionCond = 1e10
 
 func (b *runBasis) olsCorrection(L int) (*olsCorrection, error) {
 	n, k := b.n, b.k
@@ -280,6 +294,11 @@ func (b *runBasis) olsCorrection(L int) (*olsCorrection, error) {
 			m.Set(j, kk, wk*v)
 			m.Set(kk, j, wj*v)
 		}
+	}
+	var lu mat.LU
+	lu.Factorize(m)
+	if c := lu.Cond(); !(c <= maxCorrectionCond) {
+		return nil, fmt.Errorf("bias correction of the noise model: condition number %.2g", c)
 	}
 	var inv mat.Dense
 	if err := inv.Inverse(m); err != nil {
