@@ -33,7 +33,8 @@ type runBasis struct {
 	// qt is Q' (k×n, row-major): the products that sum over volumes
 	// (Q'y, the lagged cross-products) run as dot products along its
 	// contiguous rows, measured 1.5 to 5 times faster in gonum than the
-	// same products over the rows of Q, which are only k long.
+	// same products over the rows of Q, which are only k long, and the
+	// product Q δ runs along them too (residBatch).
 	qt   []float64
 	r    []float64   // k×k upper triangular
 	rinv []float64   // R^-1, upper triangular

@@ -1,6 +1,7 @@
 package fit
 
 import (
+	"github.com/viterin/vek"
 	"math"
 
 	"gonum.org/v1/gonum/floats"
@@ -119,12 +120,22 @@ func axpy(y []float64, a float64, x []float64) {
 	}
 }
 
-// vdot returns sum x_i y_i (len(y) ≥ len(x)) with gonum's assembly kernel
-// (floats.Dot); against a Go loop with four accumulators it made
+// vdot returns sum x_i y_i (len(y) ≥ len(x)) with an assembly kernel:
+// vek's AVX2 one from vekDotMin numbers on, gonum's (floats.Dot) below;
+// against a Go loop with four accumulators gonum's alone made
 // BenchmarkFitRunAuto 7% faster, measured alternately.
 func vdot(x, y []float64) float64 {
+	if len(x) >= vekDotMin {
+		return vek.Dot(x, y[:len(x)])
+	}
 	return floats.Dot(x, y[:len(x)])
 }
+
+// vekDotMin is the length from which vek's AVX2 dot product (fused
+// multiply-add on four lanes; pure Go where the processor lacks AVX2 or
+// FMA) is used: measured twice as fast as gonum's SSE2 kernel on 600
+// numbers, slower on 30, whose call cost dominates.
+const vekDotMin = 64
 
 // lagSums returns c_j = sum_t r_t r_{t+j} for j = 0..lags (lags < len(r)).
 func lagSums(dst, r []float64, lags int) []float64 {
