@@ -283,8 +283,10 @@ func candidates(g []float64, spec estimSpec) []modelChoice {
 	if spec.kind == NoiseAuto {
 		maxAR = spec.pmax
 	}
+	// One recursion to the last lag serves both: its first P steps are
+	// the AR(P) fits, and where it stops g ceases to be positive definite.
+	coefs, vars := levinson(g, len(g)-1)
 	if spec.kind == NoiseAR || spec.kind == NoiseAuto {
-		coefs, vars := levinson(g, maxAR)
 		lo := 1
 		if spec.kind == NoiseAR {
 			lo = spec.order
@@ -299,7 +301,6 @@ func candidates(g []float64, spec estimSpec) []modelChoice {
 		// At least lags 0..2 must be: ARMA(1,1) has two parameters (a
 		// lag-1 autocorrelation beyond ±0.99 leaves the AR(1) fallback).
 		gl := g
-		_, vars := levinson(g, len(g)-1)
 		if len(vars) < len(g) {
 			gl = g[:len(vars)]
 		}
