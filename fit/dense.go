@@ -1,9 +1,9 @@
 package fit
 
 import (
-	"github.com/viterin/vek"
 	"math"
 
+	"github.com/viterin/vek"
 	"gonum.org/v1/gonum/floats"
 
 	"gonum.org/v1/gonum/mat"

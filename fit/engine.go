@@ -2,11 +2,11 @@ package fit
 
 import (
 	"fmt"
-	"github.com/viterin/vek"
 	"math"
 	"sort"
 	"sync"
 
+	"github.com/viterin/vek"
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
