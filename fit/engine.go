@@ -461,13 +461,20 @@ func (e *engine) gls(ws []*regionWork, m func(*regionWork) modelChoice) error {
 		cholInverse(w.a, k, w.ainv, w.linv)
 	}
 	e.qtBatch(fast, func(w *regionWork) []float64 { return w.w }, func(w *regionWork) []float64 { return w.delta })
+	b := make([]float64, k)
 	for _, w := range fast {
+		// With w = V^-1 r_0, b = Q'w and δ = A^-1 b (A = Q'V^-1Q), the
+		// GLS residual r = r_0 - Qδ has
+		//   r'V^-1 r = r_0'w - 2 δ'b + δ'Aδ = r_0'w - δ'b,
+		// which needs no second product with V^-1. δ'b = b'A^-1 b is
+		// the part of r_0'w that the design takes, at most all of it, so
+		// the difference keeps its precision unless the design fits r_0
+		// almost exactly under V (such regions were dropped, dropExactFits).
+		copy(b, w.delta)
 		cholSolve(w.a, k, w.delta)
+		w.s2 = (vdot(w.r0, w.w) - vdot(w.delta, b)) / float64(e.df)
 	}
 	e.glsResiduals(fast)
-	for _, w := range fast {
-		w.s2 = w.prec.quadraticScratch(w.resid, w.w) / float64(e.df)
-	}
 	return nil
 }
 
