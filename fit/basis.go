@@ -305,8 +305,12 @@ func (b *runBasis) olsCorrection(L int) (*olsCorrection, error) {
 	if c := lu.Cond(); !(c <= maxCorrectionCond) {
 		return nil, fmt.Errorf("bias correction of the noise model: condition number %.2g", c)
 	}
+	eye := mat.NewDiagDense(L+1, nil)
+	for i := 0; i <= L; i++ {
+		eye.SetDiag(i, 1)
+	}
 	var inv mat.Dense
-	if err := inv.Inverse(m); err != nil {
+	if err := lu.SolveTo(&inv, false, eye); err != nil {
 		return nil, fmt.Errorf("bias correction of the noise model: %v", err)
 	}
 	c := &olsCorrection{lags: L, minv: make([]float64, (L+1)*(L+1))}

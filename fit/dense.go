@@ -5,7 +5,6 @@ import (
 
 	"github.com/viterin/vek"
 	"gonum.org/v1/gonum/floats"
-
 	"gonum.org/v1/gonum/mat"
 )
 

@@ -283,9 +283,14 @@ func candidates(g []float64, spec estimSpec) []modelChoice {
 	if spec.kind == NoiseAuto {
 		maxAR = spec.pmax
 	}
-	// One recursion to the last lag serves both: its first P steps are
-	// the AR(P) fits, and where it stops g ceases to be positive definite.
-	coefs, vars := levinson(g, len(g)-1)
+	// One recursion serves both: its first P steps are the AR(P) fits, and
+	// where it stops short of the last lag g ceases to be positive definite
+	// (which only ARMA(1,1) needs to know).
+	last := len(g) - 1
+	if spec.kind == NoiseAR {
+		last = spec.order
+	}
+	coefs, vars := levinson(g, last)
 	if spec.kind == NoiseAR || spec.kind == NoiseAuto {
 		lo := 1
 		if spec.kind == NoiseAR {
