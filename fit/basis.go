@@ -243,29 +243,7 @@ func (b *runBasis) olsCorrection(L int) (*olsCorrection, error) {
 	n, k := b.n, b.k
 	b.ensureLags(L)
 	L = min(L, len(b.lag)-1)
-	// D_j Q for j = 0..L.
-	dq := make([][]float64, L+1)
-	for j := 0; j <= L; j++ {
-		m := make([]float64, n*k)
-		for t := 0; t < n; t++ {
-			row := m[t*k : (t+1)*k]
-			if j == 0 {
-				copy(row, b.qrow(t))
-				continue
-			}
-			if t-j >= 0 {
-				for c, v := range b.qrow(t - j) {
-					row[c] += 0.5 * v
-				}
-			}
-			if t+j < n {
-				for c, v := range b.qrow(t + j) {
-					row[c] += 0.5 * v
-				}
-			}
-		}
-		dq[j] = m
-	}
+	trDD := b.lagProductTraces(L)
 	// tr(Q'D_jQ · Q'D_kQ), Q'D_0Q = I, Q'D_jQ = lag_j/2.
 	trKK := func(j, kk int) float64 {
 		switch {
@@ -288,7 +266,7 @@ func (b *runBasis) olsCorrection(L int) (*olsCorrection, error) {
 			case j == kk:
 				tdd = float64(n-j) / 2
 			}
-			v := tdd - 2*vdot(dq[j], dq[kk]) + trKK(j, kk)
+			v := tdd - 2*trDD(kk, j) + trKK(j, kk)
 			wj, wk := 2.0, 2.0
 			if j == 0 {
 				wj = 1
@@ -320,6 +298,48 @@ func (b *runBasis) olsCorrection(L int) (*olsCorrection, error) {
 		}
 	}
 	return c, nil
+}
+
+// lagProductTraces returns T(j, k) = tr(Q'D_jD_kQ) for 0 ≤ k ≤ j ≤ L
+// (D_0 = I, D_j = (S_j + S_j')/2, S_j the shift by j: (S_j)_{t,u} = 1 for
+// u = t + j). Products of shifts are shifts cut at the ends, S_jS_k =
+// S_{j+k} and, for d = j - k ≥ 0, S_jS_k' and S_j'S_k are S_d without its
+// last and its first k rows, so with h_d(t) = q_t'q_{t+d} and H_d =
+// sum_{t=0..n-1-d} h_d(t) = tr(Q'S_dQ),
+//
+//	T(j, 0) = H_j,
+//	T(j, k) = (2 H_{j+k} + 2 H_d - sum_{t=n-j..n-1-d} h_d(t) - sum_{t=0..k-1} h_d(t)) / 4,
+//
+// H_m = 0 for m ≥ n. The H_d are k dot products of length n - d along the
+// rows of Q', the end pieces short dot products of rows of Q: O(L n k) in
+// all, where forming D_jQ and their inner products costs O(L² n k)
+// (TestLagProductTraces checks the two against each other).
+func (b *runBasis) lagProductTraces(L int) func(j, k int) float64 {
+	n, k := b.n, b.k
+	H := make([]float64, 2*L+1)
+	for d := range H {
+		if d >= n {
+			break
+		}
+		for i := 0; i < k; i++ {
+			H[d] += vdot(b.qt[i*n:i*n+n-d], b.qt[i*n+d:(i+1)*n])
+		}
+	}
+	h := func(d, t int) float64 { return vdot(b.qrow(t), b.qrow(t+d)) }
+	return func(j, kk int) float64 {
+		if kk == 0 {
+			return H[j]
+		}
+		d := j - kk
+		end, start := 0.0, 0.0
+		for t := n - j; t <= n-1-d; t++ {
+			end += h(d, t)
+		}
+		for t := 0; t < kk; t++ {
+			start += h(d, t)
+		}
+		return (2*H[j+kk] + 2*H[d] - end - start) / 4
+	}
 }
 
 func traceOf(a []float64, k int) float64 {

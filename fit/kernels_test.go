@@ -82,3 +82,71 @@ func TestKernels(t *testing.T) {
 		}
 	}
 }
+
+// TestLagProductTraces checks tr(Q'D_jD_kQ) from lagProductTraces against
+// the definition: D_jQ formed column by column ((D_jQ)_t = (q_{t-j} +
+// q_{t+j})/2, rows outside the run omitted) and the trace taken as the sum
+// of the elementwise products of D_jQ and D_kQ. The designs are random with
+// an intercept and, in one, indicator columns for volumes at both ends, so
+// that the end pieces carry weight; the shortest run has lags up to n - 1,
+// where j + k passes the run's end. Tolerance 1e-12 absolute: the traces
+// are sums of at most n k products of numbers below 1 in size, whose order
+// differs between the two computations.
+func TestLagProductTraces(t *testing.T) {
+	rng := rand.New(rand.NewPCG(21, 22))
+	for _, tc := range []struct{ n, k, L int }{{6, 2, 5}, {40, 5, 10}, {200, 12, 16}, {301, 9, 8}} {
+		x := mat.NewDense(tc.n, tc.k, nil)
+		for t := 0; t < tc.n; t++ {
+			x.Set(t, 0, 1)
+			for j := 1; j < tc.k; j++ {
+				x.Set(t, j, rng.NormFloat64())
+			}
+		}
+		if tc.n == 40 {
+			// Indicators of the first and last volumes.
+			for t := 0; t < tc.n; t++ {
+				x.Set(t, 3, 0)
+				x.Set(t, 4, 0)
+			}
+			x.Set(0, 3, 1)
+			x.Set(tc.n-1, 4, 1)
+		}
+		b, err := newRunBasis(x)
+		if err != nil {
+			t.Fatal(err)
+		}
+		n, k := b.n, b.k
+		dq := func(j int) []float64 {
+			m := make([]float64, n*k)
+			for s := 0; s < n; s++ {
+				for c := 0; c < k; c++ {
+					if j == 0 {
+						m[s*k+c] = b.q[s*k+c]
+						continue
+					}
+					if s-j >= 0 {
+						m[s*k+c] += 0.5 * b.q[(s-j)*k+c]
+					}
+					if s+j < n {
+						m[s*k+c] += 0.5 * b.q[(s+j)*k+c]
+					}
+				}
+			}
+			return m
+		}
+		tr := b.lagProductTraces(tc.L)
+		for j := 0; j <= tc.L; j++ {
+			dj := dq(j)
+			for kk := 0; kk <= j; kk++ {
+				dk := dq(kk)
+				want := 0.0
+				for i := range dj {
+					want += dj[i] * dk[i]
+				}
+				if got := tr(j, kk); math.Abs(got-want) > 1e-12 {
+					t.Errorf("n %d, j %d, k %d: tr(Q'D_jD_kQ) = %.15g, want %.15g", n, j, kk, got, want)
+				}
+			}
+		}
+	}
+}
