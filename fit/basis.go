@@ -177,20 +177,19 @@ func (b *runBasis) beta(gamma []float64) []float64 {
 	return beta
 }
 
-// covFactor returns the packed upper-triangular G = R^-1 W' from
-// W = L^-1 (A = L L', W lower triangular), so that R^-1 A^-1 R^-T = G G':
-// the covariance of β per unit variance, as RegionFit holds it. It costs
-// k³/6, the product of two triangles.
-func (b *runBasis) covFactor(linv []float64) []float64 {
+// covFactor returns the packed upper-triangular G = R^-1 U from U = W' =
+// (L^-1)' (A = L L', U upper triangular, as cholInverse leaves it), so that
+// R^-1 A^-1 R^-T = G G': the covariance of β per unit variance, as
+// RegionFit holds it. Row i of G is sum_{p ≥ i} (R^-1)_ip (row p of U), the
+// product of two triangles, k³/6.
+func (b *runBasis) covFactor(u []float64) []float64 {
 	k := b.k
 	g := make([]float64, packedSize(k))
 	for i := 0; i < k; i++ {
 		ri := b.rinv[i*k : (i+1)*k]
-		gi := g[packedRow(i, k):packedRow(i+1, k)]
-		for j := i; j < k; j++ {
-			// G_ij = sum_{p=i..j} (R^-1)_ip W_jp.
-			wj := linv[j*k : (j+1)*k]
-			gi[j-i] = vdot(ri[i:j+1], wj[i:j+1])
+		gi := g[packedRow(i, k):packedRow(i+1, k)] // G_ij at gi[j-i]
+		for p := i; p < k; p++ {
+			axpy(gi[p-i:], ri[p], u[p*k+p:(p+1)*k])
 		}
 	}
 	return g

@@ -71,7 +71,7 @@ type regionWork struct {
 	next  modelChoice
 	prec  precision
 	slow  bool
-	linv  []float64 // L^-1, A = L L'
+	linv  []float64 // (L^-1)', A = L L' (upper triangular, see cholInverse)
 	// shared is the covariance factor G (R^-1 A^-1 R^-T = G G', packed,
 	// see RegionFit) when every region shares A (OLS, pooled).
 	shared []float64

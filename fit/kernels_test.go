@@ -150,3 +150,64 @@ func TestLagProductTraces(t *testing.T) {
 		}
 	}
 }
+
+// TestCholInverse checks cholInverse at sizes around its block width of
+// four: inv A = I, inv symmetric, U zero below its diagonal and W L = I for
+// W = U' (U = (L^-1)'). The matrices are B B' + k I with B standard normal
+// (fixed seed), condition numbers below about 10, so 1e-12 bounds the
+// rounding of sums of k products of order 1.
+func TestCholInverse(t *testing.T) {
+	rng := rand.New(rand.NewPCG(31, 32))
+	for _, k := range []int{1, 2, 3, 4, 5, 7, 8, 9, 13, 30} {
+		bm := make([]float64, k*k)
+		for i := range bm {
+			bm[i] = rng.NormFloat64()
+		}
+		a := make([]float64, k*k)
+		for i := 0; i < k; i++ {
+			for j := 0; j < k; j++ {
+				for p := 0; p < k; p++ {
+					a[i*k+j] += bm[i*k+p] * bm[j*k+p]
+				}
+			}
+			a[i*k+i] += float64(k)
+		}
+		l := append([]float64(nil), a...)
+		if !cholesky(l, k) {
+			t.Fatalf("k %d: not positive definite", k)
+		}
+		inv, u := make([]float64, k*k), make([]float64, k*k)
+		for i := range inv {
+			inv[i], u[i] = math.NaN(), math.NaN() // every entry must be written
+		}
+		cholInverse(l, k, inv, u)
+		for i := 0; i < k; i++ {
+			for j := 0; j < k; j++ {
+				want := 0.0
+				if i == j {
+					want = 1
+				}
+				s := 0.0 // (inv A)_ij
+				for p := 0; p < k; p++ {
+					s += inv[i*k+p] * a[p*k+j]
+				}
+				if !(math.Abs(s-want) <= 1e-12) {
+					t.Errorf("k %d: (inv A)[%d][%d] = %g", k, i, j, s)
+				}
+				if inv[i*k+j] != inv[j*k+i] {
+					t.Errorf("k %d: inv not symmetric at %d, %d", k, i, j)
+				}
+				if j < i && u[i*k+j] != 0 {
+					t.Errorf("k %d: U[%d][%d] = %g below the diagonal", k, i, j, u[i*k+j])
+				}
+				w := 0.0 // (W L)_ij = sum_p W_ip L_pj, W_ip = U_pi, j ≤ p ≤ i
+				for p := j; p <= i; p++ {
+					w += u[p*k+i] * l[p*k+j]
+				}
+				if !(math.Abs(w-want) <= 1e-12) {
+					t.Errorf("k %d: (W L)[%d][%d] = %g", k, i, j, w)
+				}
+			}
+		}
+	}
+}
