@@ -14,26 +14,44 @@ import (
 
 // cholesky overwrites the lower triangle of a (k×k, symmetric, upper
 // triangle ignored) with L, a = L L'. It reports false when a is not
-// positive definite to working precision.
+// positive definite to working precision. Column j (the Cholesky-Crout
+// order) is L_jj = sqrt(a_jj - sum_{p<j} L_jp²), then L_ij = (a_ij -
+// sum_{p<j} L_ip L_jp) / L_jj for i > j, four rows at a time against row j.
 func cholesky(a []float64, k int) bool {
 	for j := 0; j < k; j++ {
-		rj := a[j*k : j*k+k]
-		s := rj[j]
-		for p := 0; p < j; p++ {
-			s -= rj[p] * rj[p]
+		rj := a[j*k : j*k+j] // L_j0 .. L_j,j-1
+		s := a[j*k+j]
+		for _, v := range rj {
+			s -= v * v
 		}
 		if !(s > 0) {
 			return false
 		}
 		d := math.Sqrt(s)
-		rj[j] = d
-		for i := j + 1; i < k; i++ {
-			ri := a[i*k : i*k+k]
-			s := ri[j]
-			for p := 0; p < j; p++ {
-				s -= ri[p] * rj[p]
+		a[j*k+j] = d
+		n := len(rj)
+		i := j + 1
+		for ; i+4 <= k; i += 4 {
+			r0 := a[i*k : i*k+j][:n]
+			r1 := a[(i+1)*k : (i+1)*k+j][:n]
+			r2 := a[(i+2)*k : (i+2)*k+j][:n]
+			r3 := a[(i+3)*k : (i+3)*k+j][:n]
+			s0, s1, s2, s3 := a[i*k+j], a[(i+1)*k+j], a[(i+2)*k+j], a[(i+3)*k+j]
+			for p, c := range rj {
+				s0 -= r0[p] * c
+				s1 -= r1[p] * c
+				s2 -= r2[p] * c
+				s3 -= r3[p] * c
 			}
-			ri[j] = s / d
+			a[i*k+j], a[(i+1)*k+j], a[(i+2)*k+j], a[(i+3)*k+j] = s0/d, s1/d, s2/d, s3/d
+		}
+		for ; i < k; i++ {
+			ri := a[i*k : i*k+j][:n]
+			s := a[i*k+j]
+			for p, c := range rj {
+				s -= ri[p] * c
+			}
+			a[i*k+j] = s / d
 		}
 	}
 	return true

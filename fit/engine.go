@@ -624,8 +624,11 @@ func (e *engine) assemble(a []float64, pr precision) bool {
 		}
 		s := pr.s[m]
 		for i := 0; i < k; i++ {
-			for j := 0; j <= i; j++ {
-				a[i*k+j] += s * (bot[i]*bot[j] + top[i]*top[j])
+			row := a[i*k : i*k+i+1]
+			bb, tt := bot[:len(row)], top[:len(row)]
+			bi, ti := s*bot[i], s*top[i]
+			for j := range row {
+				row[j] += bi*bb[j] + ti*tt[j]
 			}
 		}
 	}

@@ -88,11 +88,12 @@ func armaVariance(g []float64, phi, theta float64) float64 {
 // 1e-10. ok is false when no parameter value gives a positive variance (g
 // not positive definite).
 func fitARMAWhittle(g []float64) (phi, theta, v float64, ok bool) {
+	gd := g[1:]
 	prof := func(th float64) (float64, float64) {
-		s, f := 0.0, 1.0
-		for d := 1; d < len(g); d++ {
-			s += f * g[d]
-			f *= -th
+		// S(θ) by Horner's rule from the last lag down.
+		s := 0.0
+		for d := len(gd); d > 0; d-- {
+			s = gd[d-1] - th*s
 		}
 		den := g[0] - 2*s*th
 		p := armaLimit

@@ -151,8 +151,9 @@ func TestLagProductTraces(t *testing.T) {
 	}
 }
 
-// TestCholInverse checks cholInverse at sizes around its block width of
-// four: inv A = I, inv symmetric, U zero below its diagonal and W L = I for
+// TestCholInverse checks cholesky and cholInverse at sizes around their
+// block width of four: L L' = A (to 1e-12 k, the size of A's entries),
+// inv A = I, inv symmetric, U zero below its diagonal and W L = I for
 // W = U' (U = (L^-1)'). The matrices are B B' + k I with B standard normal
 // (fixed seed), condition numbers below about 10, so 1e-12 bounds the
 // rounding of sums of k products of order 1.
@@ -175,6 +176,17 @@ func TestCholInverse(t *testing.T) {
 		l := append([]float64(nil), a...)
 		if !cholesky(l, k) {
 			t.Fatalf("k %d: not positive definite", k)
+		}
+		for i := 0; i < k; i++ {
+			for j := 0; j <= i; j++ {
+				s := 0.0 // (L L')_ij
+				for p := 0; p <= j; p++ {
+					s += l[i*k+p] * l[j*k+p]
+				}
+				if !(math.Abs(s-a[i*k+j]) <= 1e-12*float64(k)) {
+					t.Errorf("k %d: (L L')[%d][%d] = %g, want %g", k, i, j, s, a[i*k+j])
+				}
+			}
 		}
 		inv, u := make([]float64, k*k), make([]float64, k*k)
 		for i := range inv {
