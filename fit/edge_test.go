@@ -471,3 +471,67 @@ func TestPSCUndefinedForDemeanedSignals(t *testing.T) {
 		t.Errorf("no warning naming the demeaned regions: %q", res.Warnings)
 	}
 }
+
+// TestSubjectWithSkippedFirstRun: a subject whose first run is too short to
+// fit (fewer volumes than terms) and whose second run is fitted gets one
+// subject-level row per (region, contrast), from the one run, not one per
+// run listed. (Found by an adversarial sweep: the rows were written twice,
+// and group then refused the table.)
+func TestSubjectWithSkippedFirstRun(t *testing.T) {
+	st, err := simulate.Generate(simulate.Options{Subjects: 2, Runs: 2, Regions: 3, Volumes: 120, TR: 2,
+		Design: "event", Seed: 5})
+	if err != nil {
+		t.Fatal(err)
+	}
+	runs := st.Inputs()
+	// Subject 01's first run keeps 8 volumes.
+	short := runs[0]
+	if short.Spec.Subject != "01" || short.Spec.Run != "1" {
+		t.Fatalf("first run is %s_%s", short.Spec.Subject, short.Spec.Run)
+	}
+	cut := func(cols [][]float64) [][]float64 {
+		out := make([][]float64, len(cols))
+		for i, c := range cols {
+			out[i] = c[:8]
+		}
+		return out
+	}
+	short.Signals = &roi.Numeric{Names: short.Signals.Names, Cols: cut(short.Signals.Cols)}
+	short.Confounds = &roi.Numeric{Names: short.Confounds.Names, Cols: cut(short.Confounds.Cols)}
+	var evs []roi.Event
+	for _, e := range short.Events.Events {
+		if e.Onset < 16 {
+			evs = append(evs, e)
+		}
+	}
+	short.Events = &roi.Events{Events: evs}
+	nm, _ := fit.ParseNoise("ar1")
+	o := fit.Options{SliceRef: 0.5, Highpass: 128, HRF: fit.HRFDoubleGamma, Noise: nm, Jobs: 1}
+	plans, err := fit.Plan(runs, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !plans[0].Skipped() {
+		t.Fatal("the 8-volume run was not skipped")
+	}
+	res, err := fit.FitStudy(plans, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	seen := map[string]bool{}
+	perSubject := map[string]int{}
+	for _, r := range res.Subjects {
+		key := r.Subject + "/" + r.Region + "/" + r.Contrast
+		if seen[key] {
+			t.Errorf("subject row %s twice", key)
+		}
+		seen[key] = true
+		perSubject[r.Subject]++
+		if r.Subject == "01" && r.Runs != 1 {
+			t.Errorf("%s: %d runs, want 1", key, r.Runs)
+		}
+	}
+	if perSubject["01"] == 0 || perSubject["01"] != perSubject["02"] {
+		t.Errorf("rows per subject %v, want the same number for 01 and 02", perSubject)
+	}
+}

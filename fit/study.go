@@ -640,10 +640,14 @@ func fitPlanned(p *RunPlan, cs []Contrast, fts []FTest, noise NoiseModel) (*RunR
 // where the contrast was estimated, then BH q across regions.
 func combineSubjects(runs []*RunResult, cs []Contrast) []SubjectResult {
 	var subjects []string
+	seenSubject := map[string]bool{}
 	bySubject := map[string][]*RunResult{}
 	for _, r := range runs {
 		s := r.Plan.Run.Spec.Subject
-		if _, ok := bySubject[s]; !ok {
+		if !seenSubject[s] {
+			// (Not bySubject: it holds only fitted runs, so a subject whose
+			// first run was skipped would be listed again at its second.)
+			seenSubject[s] = true
 			subjects = append(subjects, s)
 		}
 		if r.Fit != nil {
