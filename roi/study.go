@@ -110,6 +110,7 @@ func parseStudy(name, text string) (*Study, error) {
 	st := &Study{Path: name, Dir: filepath.Dir(name)}
 	type runKey struct{ subject, session, run string }
 	first := map[runKey]int{}
+	byName := map[string]int{} // RunSpec.Key() → line
 	for i, row := range rows {
 		line := t.Lines[i]
 		cellErr := func(col, found, expected string) *InputError {
@@ -164,6 +165,15 @@ func parseStudy(name, text string) (*Study, error) {
 				Expected: "one row per (subject, session, run)"}
 		}
 		first[k] = line
+		// The key names the run's files (design/KEY.csv) and messages, so
+		// two runs must not share it: (01, run 1_2) and (01_1, run 2) would.
+		if l, dup := byName[spec.Key()]; dup {
+			return nil, &InputError{File: name, Line: line,
+				Found: fmt.Sprintf("subject %q, session %q, run %q make the run name %q, as line %d does with other labels",
+					spec.Subject, spec.Session, spec.Run, spec.Key(), l),
+				Expected: "labels that give every run its own name subject[_session]_run (for example without _ in the labels)"}
+		}
+		byName[spec.Key()] = line
 		st.Runs = append(st.Runs, spec)
 	}
 	return st, nil
