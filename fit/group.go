@@ -155,8 +155,25 @@ func adjustAcrossRegions(rows []GroupRow) {
 }
 
 // groupSample fits one sample; a non-empty warning says why it cannot be.
+//
+// The values (and standard errors) are first multiplied by a power of two
+// that brings the largest to [0.5, 1), and the estimates, standard errors
+// and τ² scaled back: exact in binary arithmetic, so the results are those
+// of the values as given, but squares of values beyond 1e154 no longer
+// overflow (t = 0, p = 1) nor those below 1e-162 underflow (p = 0). A
+// sample whose values are all the same has no spread to test against and
+// is left out with a warning, as is a comparison whose two groups are each
+// constant.
 func groupSample(s GroupSample, spec GroupSpec, terms []string) ([]GroupRow, string, error) {
 	n := len(s.Y)
+	if n >= 2 && allEqual(s.Y) {
+		return nil, fmt.Sprintf("every subject has the same value (%g), so there is no spread to test against", s.Y[0]), nil
+	}
+	scale := unitScale(s.Y)
+	s.Y = scaled(s.Y, scale)
+	if s.SE != nil {
+		s.SE = scaled(s.SE, scale)
+	}
 	var a, b []float64 // the two groups' estimates
 	if spec.Compare != "" {
 		for i, subj := range s.Subjects {
@@ -169,6 +186,10 @@ func groupSample(s GroupSample, spec GroupSpec, terms []string) ([]GroupRow, str
 		if len(a) < 2 || len(b) < 2 {
 			return nil, fmt.Sprintf("%d subject(s) with %s %s and %d with %s %s, at least two per group needed",
 				len(a), spec.Compare, spec.Levels[0], len(b), spec.Compare, spec.Levels[1]), nil
+		}
+		if allEqual(a) && allEqual(b) {
+			return nil, fmt.Sprintf("the subjects with %s %s all have one value and those with %s %s another, so there is no spread to test against",
+				spec.Compare, spec.Levels[0], spec.Compare, spec.Levels[1]), nil
 		}
 	}
 	if n <= len(terms) || n < 2 {
@@ -224,6 +245,11 @@ func groupSample(s GroupSample, spec GroupSpec, terms []string) ([]GroupRow, str
 			tests[1] = WelchT(a, b)
 		}
 	}
+	for j := range tests {
+		tests[j].Estimate /= scale
+		tests[j].StdError /= scale
+		tau2[j] /= scale * scale
+	}
 	rows := make([]GroupRow, len(terms))
 	for j, term := range terms {
 		r := GroupRow{Contrast: s.Contrast, Region: s.Region, Term: term, N: n, TTest: tests[j], Tau2: tau2[j],
@@ -240,6 +266,39 @@ func groupSample(s GroupSample, spec GroupSpec, terms []string) ([]GroupRow, str
 		rows[j] = r
 	}
 	return rows, "", nil
+}
+
+// allEqual reports whether every value of y is the same.
+func allEqual(y []float64) bool {
+	for _, v := range y {
+		if v != y[0] {
+			return false
+		}
+	}
+	return true
+}
+
+// unitScale is the power of two that brings the largest |y_i| into
+// [0.5, 1) (1 when they are all zero or one is not finite).
+func unitScale(y []float64) float64 {
+	m := 0.0
+	for _, v := range y {
+		m = math.Max(m, math.Abs(v))
+	}
+	if m == 0 || math.IsInf(m, 0) || math.IsNaN(m) {
+		return 1
+	}
+	_, e := math.Frexp(m)
+	return math.Ldexp(1, -e)
+}
+
+// scaled returns a copy of y times c.
+func scaled(y []float64, c float64) []float64 {
+	out := make([]float64, len(y))
+	for i, v := range y {
+		out[i] = v * c
+	}
+	return out
 }
 
 // groupDesign is the sample's between-subject design: intercept, then the

@@ -138,3 +138,70 @@ func TestGroupTooFewSubjects(t *testing.T) {
 		}
 	}
 }
+
+// TestGroupScaleInvariant: multiplying every subject's value (and standard
+// error) by a power of two, however large or small, multiplies the
+// estimate, its standard error by that number and τ² by its square, and
+// leaves t, p and d as they are, bit for bit (power-of-two scaling is exact
+// in binary arithmetic). Before the values were brought to unit scale,
+// 2^520 (about 3e156) gave t = 0 and p = 1, and 2^-570 (about 3e-172) p = 0
+// (found by an adversarial sweep). Plain and weighted models, with a
+// comparison of two groups.
+func TestGroupScaleInvariant(t *testing.T) {
+	y := []float64{1.15, 0.42, 2.31, 0.97, 1.88, 0.25, 1.4, 0.6}
+	se := []float64{0.3, 0.5, 0.4, 0.35, 0.6, 0.45, 0.5, 0.3}
+	subj := []string{"a", "b", "c", "d", "e", "f", "g", "h"}
+	info := map[string]Subject{}
+	for i, s := range subj {
+		info[s] = Subject{Group: i % 2}
+	}
+	for _, weighted := range []bool{false, true} {
+		spec := GroupSpec{Compare: "arm", Levels: [2]string{"x", "y"}, Weighted: weighted, Subjects: info}
+		base, err := Group([]GroupSample{{Contrast: "c", Region: "r", Subjects: subj, Y: y, SE: se}}, spec)
+		if err != nil || len(base.Rows) != 2 {
+			t.Fatalf("weighted %v: %v, %d rows", weighted, err, len(base.Rows))
+		}
+		for _, e := range []int{-570, -40, 3, 520} {
+			c := math.Ldexp(1, e)
+			res, err := Group([]GroupSample{{Contrast: "c", Region: "r", Subjects: subj, Y: scaled(y, c), SE: scaled(se, c)}}, spec)
+			if err != nil || len(res.Rows) != 2 {
+				t.Fatalf("weighted %v, 2^%d: %v", weighted, e, err)
+			}
+			for j, r := range res.Rows {
+				b := base.Rows[j]
+				same := func(what string, got, want float64) {
+					if got != want && !(math.IsNaN(got) && math.IsNaN(want)) {
+						t.Errorf("weighted %v, 2^%d, %s: %s %v, want %v", weighted, e, r.Term, what, got, want)
+					}
+				}
+				same("estimate", r.Estimate, b.Estimate*c)
+				same("std_error", r.StdError, b.StdError*c)
+				same("tau2", r.Tau2, b.Tau2*c*c)
+				same("t", r.Statistic, b.Statistic)
+				same("p", r.PValue, b.PValue)
+				same("d", r.Effect.D, b.Effect.D)
+			}
+		}
+	}
+}
+
+// TestGroupConstantValues: subjects that all have the same value leave no
+// spread to test against (a t of ±infinity or of rounding noise, p = 0);
+// the sample is left out with a warning saying so.
+func TestGroupConstantValues(t *testing.T) {
+	for _, weighted := range []bool{false, true} {
+		res, err := Group([]GroupSample{
+			{Contrast: "c", Region: "flat", Subjects: []string{"a", "b", "c", "d"}, Y: []float64{0.1, 0.1, 0.1, 0.1}, SE: []float64{0.5, 0.5, 0.5, 0.5}},
+			{Contrast: "c", Region: "varied", Subjects: []string{"a", "b", "c", "d"}, Y: []float64{0.1, 0.3, 0.2, 0.4}, SE: []float64{0.5, 0.5, 0.5, 0.5}},
+		}, GroupSpec{Weighted: weighted})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(res.Rows) != 1 || res.Rows[0].Region != "varied" {
+			t.Errorf("weighted %v: rows %+v, want only region varied", weighted, res.Rows)
+		}
+		if len(res.Warnings) != 1 || !strings.Contains(res.Warnings[0], "region flat: every subject has the same value (0.1)") {
+			t.Errorf("weighted %v: warnings %q", weighted, res.Warnings)
+		}
+	}
+}

@@ -104,7 +104,7 @@ func groupRun(o *groupOptions, dir, command string, stdout, stderr io.Writer) er
 	}
 	warnings := append(g.warnings, res.Warnings...)
 	if len(res.Rows) == 0 {
-		return fmt.Errorf("%s: no contrast and region had enough subjects for the group model; %s", input, strings.Join(warnings, "; "))
+		return fmt.Errorf("%s: no contrast and region could be tested by the group model; %s", input, strings.Join(warnings, "; "))
 	}
 	inputs := []string{input}
 	if o.participants != "" {
