@@ -247,15 +247,24 @@ func (b *builder) add(col []float64, t Term) {
 	b.d.Terms = append(b.d.Terms, t)
 }
 
+// columnError is a problem with a motion or confound column, which comes
+// from the run's confounds table.
+type columnError struct{ msg string }
+
+func (e *columnError) Error() string { return e.msg }
+
 // addCentred adds a confound column, mean-centred and never rescaled.
 func (b *builder) addCentred(c Column, prefix string, kind TermKind, volumes int) error {
 	if len(c.Values) != volumes {
-		return fmt.Errorf("%s column %q has %d values for %d volumes", prefix, c.Name, len(c.Values), volumes)
+		return &columnError{fmt.Sprintf("%s column %q has %d values for %d volumes", prefix, c.Name, len(c.Values), volumes)}
 	}
 	mean := 0.0
 	for t, v := range c.Values {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return fmt.Errorf("%s column %q has a missing or non-finite value at volume %d (data row %d)", prefix, c.Name, t, t+1)
+			return &columnError{fmt.Sprintf("%s column %q has a missing or non-finite value at volume %d (data row %d)", prefix, c.Name, t, t+1)}
+		}
+		if math.Abs(v) > maxTermMagnitude {
+			return &columnError{fmt.Sprintf("%s column %q has %g at volume %d (data row %d), beyond ±1e100, where its squares overflow; no motion estimate or confound is that large in any unit: check the column", prefix, c.Name, v, t, t+1)}
 		}
 		mean += v
 	}
@@ -556,6 +565,13 @@ func (e *DesignError) Error() string {
 		e.Run, e.Reason, e.Condition, ConditionNumberLimit, strings.Join(e.Terms, ", "))
 }
 
+// maxTermMagnitude bounds the size of a design column's values (and
+// 1/maxTermMagnitude that of a column that is not zero): squares and the
+// products of the fit must stay within double precision's range (1e±308)
+// with room for the data's own scale. No unit of an fMRI regressor comes
+// near it; common practice, not a published limit.
+const maxTermMagnitude = 1e100
+
 // CheckDesign refuses a design that is rank-deficient or numerically so. It
 // scales each column to unit length (so units do not matter), takes the
 // singular value decomposition, and names the terms with the largest weights
@@ -565,6 +581,16 @@ func CheckDesign(run string, d *Design) (cond float64, err error) {
 	n, k := d.X.Dims()
 	if n <= k {
 		return math.Inf(1), fmt.Errorf("run %s: %d volumes cannot estimate %d terms", run, n, k)
+	}
+	for j := 0; j < k; j++ {
+		m := 0.0
+		for i := 0; i < n; i++ {
+			m = math.Max(m, math.Abs(d.X.At(i, j)))
+		}
+		if m > maxTermMagnitude || (m > 0 && m < 1/maxTermMagnitude) {
+			return math.Inf(1), fmt.Errorf("run %s: term %q is %.3g in size at its largest, outside 1e-100 to 1e100, where its squares and products overflow or vanish in double precision; rescale what it is made from (an event amplitude, a confound column)",
+				run, d.Terms[j].Name, m)
+		}
 	}
 	z := mat.DenseCopyOf(d.X)
 	for j := 0; j < k; j++ {

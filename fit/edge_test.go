@@ -535,3 +535,48 @@ func TestSubjectWithSkippedFirstRun(t *testing.T) {
 		t.Errorf("rows per subject %v, want the same number for 01 and 02", perSubject)
 	}
 }
+
+// TestOutOfRangeMagnitudes: an event amplitude of 1e300 makes a regressor
+// whose squares overflow, and one of 1e-300 one whose squares vanish; a
+// motion column of 1e158 overflows when squared for --motion-terms 24.
+// Each is refused at planning, naming the term or the column (with the
+// confounds file, not the events file), instead of failing later as a
+// "rank-deficient column 2" or a "missing value" in a derived column.
+// (Found by an adversarial sweep.)
+func TestOutOfRangeMagnitudes(t *testing.T) {
+	st, err := simulate.Generate(simulate.Options{Subjects: 1, Runs: 1, Regions: 2, Volumes: 120, TR: 2, Design: "event", Seed: 5})
+	if err != nil {
+		t.Fatal(err)
+	}
+	base := st.Inputs()[0]
+	base.Spec.Signals, base.Spec.Events, base.Spec.Confounds = "sig.csv", "ev.tsv", "conf.csv"
+	o := fit.Options{SliceRef: 0.5, Highpass: 128, HRF: fit.HRFDoubleGamma, Noise: fit.NoiseModel{Name: "none"}.Resolve(), Jobs: 1}
+	for _, amp := range []float64{1e300, 1e-300} {
+		r := *base
+		var evs []roi.Event
+		for _, e := range base.Events.Events {
+			if e.Condition == "ordered" {
+				e.Amplitude = amp
+			}
+			evs = append(evs, e)
+		}
+		r.Events = &roi.Events{Events: evs}
+		_, err := fit.Plan([]*roi.Run{&r}, o)
+		if err == nil || !strings.Contains(err.Error(), `term "ordered" is`) || !strings.Contains(err.Error(), "outside 1e-100 to 1e100") {
+			t.Errorf("amplitude %g: error %v", amp, err)
+		}
+	}
+	r := *base
+	cols := make([][]float64, len(base.Confounds.Cols))
+	copy(cols, base.Confounds.Cols)
+	cols[0] = make([]float64, len(base.Confounds.Cols[0]))
+	for i, v := range base.Confounds.Cols[0] {
+		cols[0][i] = v * 1e160
+	}
+	r.Confounds = &roi.Numeric{Names: base.Confounds.Names, Cols: cols}
+	o.MotionTerms = 24
+	_, err = fit.Plan([]*roi.Run{&r}, o)
+	if err == nil || !strings.Contains(err.Error(), "(conf.csv)") || !strings.Contains(err.Error(), `motion column "tx" has`) || !strings.Contains(err.Error(), "beyond ±1e100") {
+		t.Errorf("motion 1e158: error %v", err)
+	}
+}

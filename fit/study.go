@@ -2,6 +2,7 @@ package fit
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"runtime"
@@ -293,7 +294,11 @@ func planRun(r *roi.Run, o Options) (*RunPlan, error) {
 	}
 	d, err := BuildDesign(spec)
 	if err != nil {
-		if r.Spec.Events != "" {
+		var ce *columnError
+		if errors.As(err, &ce) && r.Spec.Confounds != "" {
+			return nil, fmt.Errorf("run %s (%s): %v", key, r.Spec.Confounds, err)
+		}
+		if !errors.As(err, &ce) && r.Spec.Events != "" {
 			return nil, fmt.Errorf("run %s (%s): %v", key, r.Spec.Events, err)
 		}
 		return nil, fmt.Errorf("run %s: %v", key, err)
