@@ -79,7 +79,7 @@ var (
 		{"censored", "volumes censored", ""},
 		{"df", "residual degrees of freedom; empty when the region or run was not fitted", ""},
 		{"sigma", "standard deviation of the modelled noise (for AR models the marginal one, innovation sd · sqrt(g0))", "signal units"},
-		{"r_squared", "1 - residual sum of squares / total sum of squares about the mean, on the unwhitened signal over the kept (not censored) volumes", ""},
+		{"r_squared", "1 - residual sum of squares / total sum of squares about the mean, on the unwhitened signal over the kept (not censored) volumes; below 0 when the GLS fit leaves more than the mean does (strong autocorrelation lets it move away from least squares: check the drift terms and the noise model)", ""},
 		{"noise", "noise model the region was fitted with: none, ar1, ar:P or arma; under --noise auto the region's choice, auto:ar1, auto:ar:P or auto:arma; skipped:REASON when the region or run was not fitted", ""},
 		{"ar_order", "AR order P (0 for none; 1 for arma)", ""},
 		{"ar_coefficients", "a_1 ... a_P of e_t = a_1 e_{t-1} + ... + a_P e_{t-P} + u_t, space-separated, bias-corrected; for arma φ of e_t = φ e_{t-1} + u_t + θ u_{t-1}", ""},
