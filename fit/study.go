@@ -23,6 +23,12 @@ type Options struct {
 	Highpass  float64 // seconds
 	Noise     NoiseModel
 	Contrasts []Contrast // empty: one per condition, named after it
+	// StudyConditions, when not nil, holds the conditions of the whole
+	// study while only part of it is planned (a --shard): a contrast or F
+	// test may then name a condition this part lacks, or a term of one
+	// (CONDITION:...), which the parts that have the condition check, so
+	// that every shard accepts what the unsharded fit accepts.
+	StudyConditions []string
 	// Motion names the six rigid-body columns; nil takes tx,ty,tz,rx,ry,rz
 	// where all six exist in a run's confounds table.
 	Motion    []string
@@ -147,7 +153,7 @@ func PlanRun(r *roi.Run, o Options) (*RunPlan, error) { return planRun(r, o) }
 // FinishPlan checks the contrasts against the study's conditions and
 // completes the design audit across runs (relative efficiency).
 func FinishPlan(plans []*RunPlan, o Options) ([]*RunPlan, error) {
-	if err := checkContrasts(plans, o.Contrasts, o.FTests); err != nil {
+	if err := checkContrasts(plans, o.Contrasts, o.FTests, o.StudyConditions); err != nil {
 		return nil, err
 	}
 	foreignConditionWarnings(plans)
@@ -379,8 +385,45 @@ func KnownNames(plans []*RunPlan) []string {
 	return out
 }
 
-func checkContrasts(plans []*RunPlan, cs []Contrast, fts []FTest) error {
+func checkContrasts(plans []*RunPlan, cs []Contrast, fts []FTest, study []string) error {
 	known := KnownNames(plans)
+	if study != nil {
+		// Names of conditions absent from these runs, and of their terms,
+		// are left to the runs that have them (see Options.StudyConditions):
+		// they count as known here.
+		here := map[string]bool{}
+		for _, c := range Conditions(plans) {
+			here[c] = true
+		}
+		set := map[string]bool{}
+		for _, k := range known {
+			set[k] = true
+		}
+		elsewhere := func(n string) bool {
+			for _, c := range study {
+				if !here[c] && (n == c || strings.HasPrefix(n, c+":")) {
+					return true
+				}
+			}
+			return false
+		}
+		add := func(c Contrast) {
+			for _, n := range c.Names {
+				if !set[n] && elsewhere(n) {
+					set[n] = true
+					known = append(known, n)
+				}
+			}
+		}
+		for _, c := range cs {
+			add(c)
+		}
+		for _, f := range fts {
+			for _, r := range f.Rows {
+				add(r)
+			}
+		}
+	}
 	for _, f := range fts {
 		if err := f.Check(known); err != nil {
 			return err

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -46,5 +47,52 @@ func TestShardsMergeEqualSingleRun(t *testing.T) {
 	// Shards are disjoint: each subject's rows come from one shard only.
 	if code, _, stderr := runCLI("merge", parts[0], parts[1], "-o", filepath.Join(tmp, "m2")); code != 1 || !strings.Contains(stderr, "shards 3 of 3 are missing") {
 		t.Errorf("merging two of three shards: exit %d, %q", code, stderr)
+	}
+}
+
+// TestShardWithoutACondition: subject 02 has no "jumbled" events, and a
+// contrast and an F test name it. The unsharded fit accepts them (they are
+// not estimated in 02's runs); the shard of subject 02 alone must accept
+// them too, checking names against the whole study's conditions, and the
+// merged shards must equal the single fit. (Found by an adversarial sweep:
+// the shard refused the contrast as naming no condition of the study.)
+func TestShardWithoutACondition(t *testing.T) {
+	study := simulateStudy(t, 2, 1, 3, 120, 5)
+	events := filepath.Join(filepath.Dir(study), "sub-02", "sub-02_run-1_events.tsv")
+	data, err := os.ReadFile(events)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var kept []string
+	for i, line := range strings.Split(strings.TrimRight(string(data), "\n"), "\n") {
+		if i == 0 || !strings.Contains(line, "\tjumbled") {
+			kept = append(kept, line)
+		}
+	}
+	if err := os.WriteFile(events, []byte(strings.Join(kept, "\n")+"\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	tmp := t.TempDir()
+	flags := []string{"--contrast", "order = ordered - jumbled", "--ftest", "both = ordered; jumbled"}
+	single := filepath.Join(tmp, "single")
+	mustRun(t, append([]string{"fit", study, "-o", single}, flags...)...)
+	var parts []string
+	for _, s := range []string{"1/2", "2/2"} {
+		dir := filepath.Join(tmp, "part"+s[:1])
+		mustRun(t, append([]string{"fit", study, "-o", dir, "--shard", s}, flags...)...)
+		parts = append(parts, dir)
+	}
+	merged := filepath.Join(tmp, "merged")
+	mustRun(t, append(append([]string{"merge"}, parts...), "-o", merged)...)
+	want, got := listFiles(t, single), listFiles(t, merged)
+	for name, text := range want {
+		if strings.HasSuffix(name, ".csv") && got[name] != text {
+			t.Errorf("%s differs between the merged shards and the single fit", name)
+		}
+	}
+	// A name that is no condition anywhere is still refused in a shard.
+	code, _, stderr := runCLI("fit", study, "-o", filepath.Join(tmp, "bad"), "--shard", "2/2", "--contrast", "x = ordered - jumbeld")
+	if code != 1 || !strings.Contains(stderr, `names "jumbeld", which is not a condition or term of this study`) {
+		t.Errorf("misspelt condition in a shard: exit %d, %q", code, stderr)
 	}
 }

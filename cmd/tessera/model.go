@@ -6,6 +6,7 @@ import (
 	"path/filepath"
 	"runtime"
 	"runtime/debug"
+	"sort"
 	"strconv"
 	"strings"
 	"sync"
@@ -290,7 +291,14 @@ func (m *modelFlags) load(args []string, o fit.Options) (*loaded, error) {
 		if err != nil {
 			return nil, err
 		}
+		all := specs
 		specs, l.shard = selectShard(specs, i, n)
+		// Contrast names are checked against the conditions of the whole
+		// study, so that a shard without some condition accepts what the
+		// unsharded fit accepts.
+		if o.StudyConditions, err = studyConditions(all); err != nil {
+			return nil, err
+		}
 		if len(specs) == 0 {
 			return nil, fmt.Errorf("--shard %s: the study has %d subject(s), so this shard has none", m.shard, len(l.shard.Subjects))
 		}
@@ -385,6 +393,30 @@ func (m *modelFlags) load(args []string, o fit.Options) (*loaded, error) {
 		return nil, err
 	}
 	return l, nil
+}
+
+// studyConditions returns the conditions named in the events tables of
+// every run (sorted, each once), reading only the events tables.
+func studyConditions(specs []roi.RunSpec) ([]string, error) {
+	set := map[string]bool{}
+	for _, s := range specs {
+		if s.Events == "" {
+			continue
+		}
+		ev, err := roi.ReadEvents(s.Events)
+		if err != nil {
+			return nil, err
+		}
+		for _, e := range ev.Events {
+			set[e.Condition] = true
+		}
+	}
+	out := []string{}
+	for c := range set {
+		out = append(out, c)
+	}
+	sort.Strings(out)
+	return out, nil
 }
 
 // streamBytes is the total size of the signals tables beyond which runs are
