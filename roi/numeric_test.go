@@ -16,6 +16,10 @@ func TestParseNumericRefuses(t *testing.T) {
 		{"non-numeric cell", "a,b,c,ridge_a\n1,2,3,4\n1,2,3,12..5\n", 3, 4,
 			[]string{`"12..5" is not a number (column "ridge_a"); expected a number with a decimal point`}},
 		{"word in a cell", "a\tb\n1\tpeak\n", 2, 2, []string{`"peak" is not a number`, `column "b"`}},
+		// Go's syntax for numbers, which strconv accepts, is not a table's.
+		{"digit separator", "a,b\n1,1_000\n", 2, 2, []string{`"1_000" is not a number`}},
+		{"hexadecimal float", "a,b\n0x1p10,1\n", 2, 1, []string{`"0x1p10" is not a number`}},
+		{"hexadecimal float, negative", "a,b\n1,-0X1.8P3\n", 2, 2, []string{`"-0X1.8P3" is not a number`}},
 		{"duplicate region name", "amyg,hipp,amyg\n1,2,3\n", 1, 3, []string{`column 3 is named "amyg", like column 1`}},
 		{"duplicate after trimming spaces", "amyg, amyg \n1,2\n", 1, 2, []string{`column 2 is named "amyg"`}},
 		{"empty region name", "a,,c\n1,2,3\n", 1, 2, []string{"column 2 of the header has no name"}},

@@ -366,6 +366,9 @@ func parseCellBytes(b []byte) (float64, cellStatus) {
 	case "", "NA", "n/a", "NaN", "nan":
 		return math.NaN(), cellMissing
 	}
+	if bytes.ContainsAny(b, goSyntax) {
+		return 0, cellNotNumber
+	}
 	v, err := strconv.ParseFloat(string(b), 64)
 	switch {
 	case err != nil:

@@ -580,6 +580,13 @@ const (
 	cellOverflow                // a number too large for a float64, such as 1e400
 )
 
+// goSyntax holds the characters that strconv.ParseFloat accepts from Go's
+// syntax for numbers but a table of numbers does not use: digit separators
+// (1_000) and hexadecimal mantissas and exponents (0x1p10). A cell with one
+// of them is not a number, as in R or a spreadsheet; no decimal number, Inf,
+// Infinity or NaN contains any of them.
+const goSyntax = "_xXpP"
+
 // parseCell reads a numeric cell; spaces around it (possible inside quotes)
 // are ignored. A number too small for a float64 reads as the nearest
 // representable value (0 or a subnormal), as strconv gives it.
@@ -587,6 +594,9 @@ func parseCell(s string) (float64, cellStatus) {
 	s = strings.TrimSpace(s)
 	if isMissing(s) {
 		return math.NaN(), cellMissing
+	}
+	if strings.ContainsAny(s, goSyntax) {
+		return 0, cellNotNumber
 	}
 	v, err := strconv.ParseFloat(s, 64)
 	if err != nil {
