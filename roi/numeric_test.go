@@ -17,6 +17,7 @@ func TestParseNumericRefuses(t *testing.T) {
 			[]string{`"12..5" is not a number (column "ridge_a"); expected a number with a decimal point`}},
 		{"word in a cell", "a\tb\n1\tpeak\n", 2, 2, []string{`"peak" is not a number`, `column "b"`}},
 		// Go's syntax for numbers, which strconv accepts, is not a table's.
+		{"region named NA", "amyg,NA\n1,2\n", 1, 2, []string{`column 2 is named "NA", which tables read as a missing value`}},
 		{"digit separator", "a,b\n1,1_000\n", 2, 2, []string{`"1_000" is not a number`}},
 		{"hexadecimal float", "a,b\n0x1p10,1\n", 2, 1, []string{`"0x1p10" is not a number`}},
 		{"hexadecimal float, negative", "a,b\n1,-0X1.8P3\n", 2, 2, []string{`"-0X1.8P3" is not a number`}},

@@ -215,6 +215,15 @@ func (r *numReader) header(what string) ([]string, int, error) {
 	if err != nil {
 		return nil, 0, err
 	}
+	for j, n := range names {
+		// A region or confound named like a missing value would come back
+		// as one from every results table (R, pandas, tessera group).
+		if isMissing(n) {
+			return nil, 0, &InputError{File: r.name, Line: hline, Column: j + 1,
+				Found:    fmt.Sprintf("column %d is named %q, which tables read as a missing value", j+1, n),
+				Expected: "a column name that is not NA, n/a, NaN or nan"}
+		}
+	}
 	return names, hline, nil
 }
 
