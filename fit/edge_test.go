@@ -580,3 +580,57 @@ func TestOutOfRangeMagnitudes(t *testing.T) {
 		t.Errorf("motion 1e158: error %v", err)
 	}
 }
+
+// TestSignalScale: a region's signal multiplied by 2^-50 (values about
+// 1e-12) or 2^256 (about 1e80) gives the same t values, Ljung-Box and
+// normality p as at its own scale (to 1e-9 relative: the fit is the same
+// arithmetic on scaled numbers, up to the order of sums); before, the
+// first was skipped as constant (an absolute floor in the constancy test)
+// and the second lost its normality p (fourth powers overflowed). Beyond
+// 1e100 (2^400, about 2.6e120) the region is skipped with the reason given
+// rather than fitted with overflowing squares. (Found by an adversarial
+// sweep.)
+func TestSignalScale(t *testing.T) {
+	st, err := simulate.Generate(simulate.Options{Subjects: 1, Runs: 1, Regions: 1, Volumes: 120, TR: 2, Design: "event", Seed: 5})
+	if err != nil {
+		t.Fatal(err)
+	}
+	nm, _ := fit.ParseNoise("ar1")
+	o := fit.Options{SliceRef: 0.5, Highpass: 128, HRF: fit.HRFDoubleGamma, Noise: nm, Jobs: 1}
+	plans, err := fit.Plan(st.Inputs(), o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	d, y := plans[0].Design, plans[0].Y[0]
+	fitAt := func(e int) fit.RegionFit {
+		ys := make([]float64, len(y))
+		for i, v := range y {
+			ys[i] = math.Ldexp(v, e)
+		}
+		rf, err := fit.FitRun(d, []string{"r"}, [][]float64{ys}, nm)
+		if err != nil {
+			t.Fatalf("2^%d: %v", e, err)
+		}
+		return rf.Regions[0]
+	}
+	base := fitAt(0)
+	close := func(a, b float64) bool { return math.Abs(a-b) <= 1e-9*math.Abs(b) }
+	for _, e := range []int{-50, 256} {
+		r := fitAt(e)
+		if r.Skip != "" {
+			t.Errorf("2^%d: skipped: %s", e, r.Skip)
+			continue
+		}
+		for j := range base.Beta {
+			if !close(r.Beta[j]/r.StdError[j], base.Beta[j]/base.StdError[j]) {
+				t.Errorf("2^%d, term %d: t %g, at scale 1 %g", e, j, r.Beta[j]/r.StdError[j], base.Beta[j]/base.StdError[j])
+			}
+		}
+		if !close(r.NormalityP, base.NormalityP) || !close(r.LjungBoxP, base.LjungBoxP) {
+			t.Errorf("2^%d: normality p %g, Ljung-Box p %g; at scale 1 %g, %g", e, r.NormalityP, r.LjungBoxP, base.NormalityP, base.LjungBoxP)
+		}
+	}
+	if r := fitAt(400); !strings.Contains(r.Skip, "outside 1e-100 to 1e100") {
+		t.Errorf("2^400: skip %q", r.Skip)
+	}
+}

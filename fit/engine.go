@@ -206,9 +206,16 @@ func fitRunNoise(d *Design, names []string, y [][]float64, noise NoiseModel) (*R
 		out.Region = names[r]
 		// Censored volumes are fitted exactly by their indicator terms, so
 		// only the kept volumes say whether the signal varies.
+		if big := keptMaxAbs(yr, d.Censored); big > maxSignalMagnitude || (big > 0 && big < 1/maxSignalMagnitude) {
+			out.Baseline = math.NaN()
+			out.Skip = fmt.Sprintf("values of size %.3g, outside 1e-100 to 1e100, where the fit's squares overflow or vanish: rescale the signal", big)
+			continue
+		}
 		mean, tss, kept := keptMeanSS(yr, d.Censored)
 		out.Baseline = mean
-		if tss <= 1e-24*math.Max(1, mean*mean)*float64(kept) {
+		// Constant: no variation at all, or less than 1e-12 of the level
+		// (the rounding of a constant's decimal text), whatever the scale.
+		if tss == 0 || tss <= 1e-24*mean*mean*float64(kept) {
 			out.Skip = "constant signal"
 			continue
 		}
@@ -271,6 +278,24 @@ func CheckNoise(d *Design, noise NoiseModel) error {
 		return tooFewForNoise(d, noise, L)
 	}
 	return nil
+}
+
+// maxSignalMagnitude bounds the size of a region's values (and
+// 1/maxSignalMagnitude that of a region that is not zero): sums of squares
+// and fourth powers of residuals must stay within double precision's range
+// (1e±308). No unit of a BOLD signal comes near it; common practice, not a
+// published limit.
+const maxSignalMagnitude = 1e100
+
+// keptMaxAbs is the largest |y_t| over the volumes that are not censored.
+func keptMaxAbs(y []float64, censored []bool) float64 {
+	m := 0.0
+	for t, v := range y {
+		if censored == nil || !censored[t] {
+			m = math.Max(m, math.Abs(v))
+		}
+	}
+	return m
 }
 
 // regionBlock is how many regions are fitted together when regions are

@@ -73,9 +73,21 @@ func JarqueBera(r []float64) (jb, p float64) {
 		mean += v
 	}
 	mean /= n
+	// The deviations are taken at unit scale (times a power of two, which
+	// is exact), so that their fourth powers neither overflow nor vanish;
+	// skewness and kurtosis do not depend on the scale.
+	big := 0.0
+	for _, v := range r {
+		big = math.Max(big, math.Abs(v-mean))
+	}
+	c := 1.0
+	if big > 0 && !math.IsInf(big, 0) {
+		_, e := math.Frexp(big)
+		c = math.Ldexp(1, -e)
+	}
 	var m2, m3, m4 float64
 	for _, v := range r {
-		d := v - mean
+		d := (v - mean) * c
 		d2 := d * d
 		m2 += d2
 		m3 += d2 * d
