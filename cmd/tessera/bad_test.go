@@ -3,6 +3,7 @@ package main
 import (
 	"os"
 	"path/filepath"
+	"regexp"
 	"strconv"
 	"strings"
 	"testing"
@@ -241,5 +242,17 @@ func TestTROverrideEvents(t *testing.T) {
 				t.Errorf("report.md does not count 2 tap events (3 in the file, 1 after the run's end)")
 			}
 		})
+	}
+}
+
+// TestNoRunFittable: when censoring leaves every run with no more volumes
+// than terms, the refusal says so per run, with the counts, and not with
+// the runs' unrelated warnings.
+func TestNoRunFittable(t *testing.T) {
+	study := simulateStudy(t, 1, 1, 2, 40, 3)
+	code, _, stderr := runCLI("fit", study, "-o", filepath.Join(t.TempDir(), "out"), "--censor-fd", "0.00001", "--noise", "none")
+	if code != 1 || !strings.Contains(stderr, "no run can be fitted") ||
+		!regexp.MustCompile(`run 01_1: 40 volumes, \d+ terms \(\d+ of them for censored volumes\)`).MatchString(stderr) {
+		t.Errorf("exit %d, %q", code, stderr)
 	}
 }

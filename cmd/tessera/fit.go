@@ -104,7 +104,16 @@ func fitStudy(ctx context.Context, fs *flag.FlagSet, m *modelFlags, args []strin
 		}
 	}
 	if fitted == 0 {
-		return nil, fmt.Errorf("no run can be fitted: every run has fewer volumes than its design has terms (%s)", strings.Join(plans[0].Warnings, "; "))
+		var why []string
+		for i, p := range plans {
+			if i == 3 {
+				why = append(why, fmt.Sprintf("and %d more", len(plans)-3))
+				break
+			}
+			n, k := p.Design.X.Dims()
+			why = append(why, fmt.Sprintf("run %s: %d volumes, %d terms (%d of them for censored volumes)", p.Run.Spec.Key(), n, k, p.Design.CensoredCount()))
+		}
+		return nil, fmt.Errorf("no run can be fitted: every run has no more volumes than its design has terms (%s); use fewer terms (drift, motion expansions, conditions) or less censoring", strings.Join(why, "; "))
 	}
 	prov := &report.Provenance{Program: "tessera", Version: version, Command: command, Options: map[string]string{}, Timings: tm.marks, Shard: l.shard}
 	fs.VisitAll(func(f *flag.Flag) { prov.Options[f.Name] = f.Value.String() })
