@@ -357,8 +357,10 @@ func TestExactFitSkipped(t *testing.T) {
 // TestTooFewForNoiseModel: a run whose censoring leaves two stretches of
 // five kept volumes has residual degrees of freedom but no pairs of kept
 // volumes at lags 5 to 7, so the autocovariances an AR(1) is estimated
-// from are not determined. The run is refused in plain words (when it is
-// planned, and by FitRun), not with a matrix error; --noise none fits it.
+// from are not determined. The run is skipped when it is planned, with a
+// warning in plain words (as a run with fewer volumes than terms is), and
+// FitRun refuses it, not with a matrix error; --noise none fits it. The
+// other run of the study is fitted.
 func TestTooFewForNoiseModel(t *testing.T) {
 	const n = 30
 	y := make([]float64, n)
@@ -372,12 +374,35 @@ func TestTooFewForNoiseModel(t *testing.T) {
 	run := &roi.Run{Spec: roi.RunSpec{Subject: "01", Run: "1", TR: 2, Signals: "sig.csv"},
 		Signals: &roi.Numeric{Names: []string{"r"}, Cols: [][]float64{y}},
 		Events:  &roi.Events{Events: []roi.Event{{Onset: 0, Duration: 6, Amplitude: 1, Condition: "a"}, {Onset: 50, Duration: 6, Amplitude: 1, Condition: "a"}}}}
+	good := &roi.Run{Spec: roi.RunSpec{Subject: "01", Run: "2", TR: 2, Signals: "sig2.csv"},
+		Signals: &roi.Numeric{Names: []string{"r"}, Cols: [][]float64{make([]float64, 80)}},
+		Events:  run.Events}
+	for i := range good.Signals.Cols[0] {
+		good.Signals.Cols[0][i] = 500 + rng.NormFloat64()
+	}
 	for _, noise := range []string{"ar1", "arma", "auto"} {
 		nm, _ := fit.ParseNoise(noise)
 		o := fit.Options{SliceRef: 0.5, Highpass: 128, Noise: nm, MissingCensor: true}
-		_, err := fit.Plan([]*roi.Run{run}, o)
-		if err == nil || !strings.Contains(err.Error(), "run 01_1:") || !strings.Contains(err.Error(), "residual degrees of freedom, too few to estimate the "+noise+" noise model") {
-			t.Errorf("%s: plan error %v", noise, err)
+		plans, err := fit.Plan([]*roi.Run{run, good}, o)
+		if err != nil {
+			t.Fatalf("%s: plan error %v", noise, err)
+		}
+		if plans[0].Skip != fit.SkipNoise || plans[1].Skipped() {
+			t.Errorf("%s: skip %q and %q", noise, plans[0].Skip, plans[1].Skip)
+		}
+		warned := false
+		for _, w := range plans[0].Warnings {
+			warned = warned || strings.Contains(w, "run 01_1 is skipped:") && strings.Contains(w, "residual degrees of freedom, too few to estimate the "+noise+" noise model")
+		}
+		if !warned {
+			t.Errorf("%s: warnings %q", noise, plans[0].Warnings)
+		}
+		res, err := fit.FitStudy(plans, o)
+		if err != nil {
+			t.Fatalf("%s: %v", noise, err)
+		}
+		if res.Runs[0].Fit != nil || res.Runs[1].Fit == nil {
+			t.Errorf("%s: fits %v, %v; want the first run skipped, the second fitted", noise, res.Runs[0].Fit != nil, res.Runs[1].Fit != nil)
 		}
 	}
 	o := fit.Options{SliceRef: 0.5, Highpass: 128, Noise: fit.NoiseModel{Name: "none"}.Resolve(), MissingCensor: true}

@@ -85,6 +85,9 @@ type RunPlan struct {
 	Audit []AuditRow
 	// Volumes is the number of kept volumes, TotalVolumes the number read.
 	Volumes, TotalVolumes int
+	// Skip says why the run is not fitted: SkipVolumes or SkipNoise; empty
+	// when it is fitted.
+	Skip string
 
 	skip    int
 	missing []bool // volumes censored because a signal value is missing
@@ -322,21 +325,31 @@ func planRun(r *roi.Run, o Options) (*RunPlan, error) {
 	if rows <= k {
 		p.Warnings = append(p.Warnings, fmt.Sprintf("run %s has %d volumes for %d terms and is skipped", key, rows, k))
 		p.Condition = math.Inf(1)
+		p.Skip = SkipVolumes
 		return p, nil
 	}
 	cond, err := CheckDesign(key, d)
 	if err != nil {
 		return nil, err
 	}
-	if err := CheckNoise(d, o.Noise.ForTR(tr)); err != nil {
-		return nil, fmt.Errorf("run %s: %v", key, err)
-	}
 	p.Condition = cond
+	if err := CheckNoise(d, o.Noise.ForTR(tr)); err != nil {
+		// Like a run with too few volumes, the run is left out with a
+		// warning rather than the whole study refused.
+		p.Warnings = append(p.Warnings, fmt.Sprintf("run %s is skipped: %v", key, err))
+		p.Skip = SkipNoise
+	}
 	return p, nil
 }
 
-// Skipped reports whether the run has too few volumes to fit.
-func (p *RunPlan) Skipped() bool { r, k := p.Design.X.Dims(); return r <= k }
+// Reasons for skipping a run (RunPlan.Skip).
+const (
+	SkipVolumes = "too few volumes"
+	SkipNoise   = "too few residual degrees of freedom for the noise model"
+)
+
+// Skipped reports whether the run is not fitted (see Skip).
+func (p *RunPlan) Skipped() bool { return p.Skip != "" }
 
 // Conditions returns every condition name of the study, sorted.
 func Conditions(plans []*RunPlan) []string {

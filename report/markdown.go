@@ -123,7 +123,7 @@ func Markdown(res *fit.StudyResult, info ReportInfo) string {
 		for _, c := range d.Conditions {
 			ce = append(ce, fmt.Sprintf("%s (%d)", c, r.Plan.Events[c]))
 		}
-		cond := "skipped: too few volumes"
+		cond := "skipped: " + r.Plan.Skip
 		if !r.Plan.Skipped() {
 			cond = fmt.Sprintf("%.3g", r.Plan.Condition)
 		}

@@ -173,7 +173,7 @@ func writeDiagnostics(out *Output, res *fit.StudyResult) error {
 		n := rr.Plan.Volumes
 		if rr.Fit == nil {
 			for _, name := range rr.Plan.Regions {
-				diag.row(s.Subject, s.Session, s.Run, name, strconv.Itoa(n), "0", "", "", "", "skipped:too few volumes", "", "", "", "", "", "", "", "", "", "")
+				diag.row(s.Subject, s.Session, s.Run, name, strconv.Itoa(n), "0", "", "", "", "skipped:"+rr.Plan.Skip, "", "", "", "", "", "", "", "", "", "")
 			}
 			continue
 		}

@@ -111,9 +111,9 @@ func fitStudy(ctx context.Context, fs *flag.FlagSet, m *modelFlags, args []strin
 				break
 			}
 			n, k := p.Design.X.Dims()
-			why = append(why, fmt.Sprintf("run %s: %d volumes, %d terms (%d of them for censored volumes)", p.Run.Spec.Key(), n, k, p.Design.CensoredCount()))
+			why = append(why, fmt.Sprintf("run %s: %d volumes, %d terms (%d of them for censored volumes): %s", p.Run.Spec.Key(), n, k, p.Design.CensoredCount(), p.Skip))
 		}
-		return nil, fmt.Errorf("no run can be fitted: every run has no more volumes than its design has terms (%s); use fewer terms (drift, motion expansions, conditions) or less censoring", strings.Join(why, "; "))
+		return nil, fmt.Errorf("no run can be fitted (%s); use fewer terms (drift, motion expansions, conditions), less censoring, or --noise none", strings.Join(why, "; "))
 	}
 	prov := &report.Provenance{Program: "tessera", Version: version, Command: command, Options: map[string]string{}, Timings: tm.marks, Shard: l.shard}
 	fs.VisitAll(func(f *flag.Flag) { prov.Options[f.Name] = f.Value.String() })
