@@ -291,8 +291,8 @@ const maxSignalMagnitude = 1e100
 func keptMaxAbs(y []float64, censored []bool) float64 {
 	m := 0.0
 	for t, v := range y {
-		if censored == nil || !censored[t] {
-			m = math.Max(m, math.Abs(v))
+		if a := math.Abs(v); a > m && (censored == nil || !censored[t]) {
+			m = a // (a comparison: math.Max, which orders NaN and -0, cost a fifth of an OLS fit)
 		}
 	}
 	return m

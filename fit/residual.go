@@ -78,7 +78,9 @@ func JarqueBera(r []float64) (jb, p float64) {
 	// skewness and kurtosis do not depend on the scale.
 	big := 0.0
 	for _, v := range r {
-		big = math.Max(big, math.Abs(v-mean))
+		if a := math.Abs(v - mean); a > big {
+			big = a
+		}
 	}
 	c := 1.0
 	if big > 0 && !math.IsInf(big, 0) {
