@@ -180,16 +180,43 @@ func (b *runBasis) beta(gamma []float64) []float64 {
 // covFactor returns the packed upper-triangular G = R^-1 U from U = W' =
 // (L^-1)' (A = L L', U upper triangular, as cholInverse leaves it), so that
 // R^-1 A^-1 R^-T = G G': the covariance of β per unit variance, as
-// RegionFit holds it. Row i of G is sum_{p ≥ i} (R^-1)_ip (row p of U), the
-// product of two triangles, k³/6.
-func (b *runBasis) covFactor(u []float64) []float64 {
+// RegionFit holds it. G_ij = sum_{p=i..j} (R^-1)_ip W_jp is a dot product
+// of row i of R^-1 and row j of W (W, lower triangular, is U transposed
+// into scratch, k×k), four j at a time: W is zero beyond its diagonal, so
+// the four sums may all run to the last of their ends. k³/6 in all.
+func (b *runBasis) covFactor(u, scratch []float64) []float64 {
 	k := b.k
+	w := scratch[:k*k]
+	for j := 0; j < k; j++ {
+		row := w[j*k : (j+1)*k]
+		for p := range row[:j+1] {
+			row[p] = u[p*k+j]
+		}
+		clear(row[j+1:])
+	}
 	g := make([]float64, packedSize(k))
 	for i := 0; i < k; i++ {
 		ri := b.rinv[i*k : (i+1)*k]
 		gi := g[packedRow(i, k):packedRow(i+1, k)] // G_ij at gi[j-i]
-		for p := i; p < k; p++ {
-			axpy(gi[p-i:], ri[p], u[p*k+p:(p+1)*k])
+		j := i
+		for ; j+4 <= k; j += 4 {
+			r := ri[i : j+4]
+			n := len(r)
+			w0 := w[j*k+i : j*k+j+4][:n]
+			w1 := w[(j+1)*k+i : (j+1)*k+j+4][:n]
+			w2 := w[(j+2)*k+i : (j+2)*k+j+4][:n]
+			w3 := w[(j+3)*k+i : (j+3)*k+j+4][:n]
+			var s0, s1, s2, s3 float64
+			for p, c := range r {
+				s0 += c * w0[p]
+				s1 += c * w1[p]
+				s2 += c * w2[p]
+				s3 += c * w3[p]
+			}
+			gi[j-i], gi[j-i+1], gi[j-i+2], gi[j-i+3] = s0, s1, s2, s3
+		}
+		for ; j < k; j++ {
+			gi[j-i] = sdot(ri[i:j+1], w[j*k+i:j*k+j+1])
 		}
 	}
 	return g

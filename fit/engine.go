@@ -741,7 +741,7 @@ func (e *engine) finish(w *regionWork, out *RegionFit) {
 		out.covFactor = w.shared
 	default:
 		out.Beta = e.b.beta(w.gamma)
-		out.covFactor = e.b.covFactor(w.linv)
+		out.covFactor = e.b.covFactor(w.linv, e.scratch(e.b.k*e.b.k))
 	}
 	out.setStdErrors()
 	out.DF = e.df

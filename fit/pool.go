@@ -140,7 +140,7 @@ func (e *engine) glsShared(ws []*regionWork, m modelChoice) error {
 		}
 	}
 	cholInverse(first.a, k, first.ainv, first.linv)
-	shared := e.b.covFactor(first.linv)
+	shared := e.b.covFactor(first.linv, make([]float64, k*k))
 	for _, w := range ws {
 		w.model, w.slow, w.slowBeta, w.prec = m, false, nil, pr
 		w.a, w.ainv, w.linv, w.shared = first.a, first.ainv, first.linv, shared
