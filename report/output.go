@@ -3,6 +3,7 @@ package report
 import (
 	"bufio"
 	"fmt"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"sync"
@@ -42,7 +43,7 @@ func (o *Output) Create(rel string) (*File, error) {
 	if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
 		return nil, err
 	}
-	f, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".tmp-*")
+	f, err := createTemp(filepath.Dir(path), "."+filepath.Base(path)+".tmp-")
 	if err != nil {
 		return nil, err
 	}
@@ -51,6 +52,22 @@ func (o *Output) Create(rel string) (*File, error) {
 	o.pending = append(o.pending, file)
 	o.mu.Unlock()
 	return file, nil
+}
+
+// createTemp creates a new file dir/prefix+random for writing, with the
+// permissions an ordinary file gets (0666 less the umask, usually 0644),
+// which its rename into place keeps: os.CreateTemp makes 0600 files, which
+// would leave results unreadable to the rest of a group sharing a project
+// folder.
+func createTemp(dir, prefix string) (*os.File, error) {
+	for try := 0; ; try++ {
+		name := filepath.Join(dir, fmt.Sprintf("%s%016x", prefix, rand.Uint64()))
+		f, err := os.OpenFile(name, os.O_RDWR|os.O_CREATE|os.O_EXCL, 0o666)
+		if os.IsExist(err) && try < 100 {
+			continue
+		}
+		return f, err
+	}
 }
 
 // ResultFiles are the names of every file a fit or group run writes into
