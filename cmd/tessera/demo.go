@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"io"
+	"os"
 	"path/filepath"
 
 	flag "github.com/spf13/pflag"
@@ -51,6 +52,9 @@ var (
 	demoContrasts = []string{"order = ordered - jumbled", "viewing = 0.5*ordered + 0.5*jumbled", "glint"}
 )
 
+// demoMarker is the file that marks a folder as the demo's own.
+const demoMarker = ".tessera-demo"
+
 func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 	fs, out := demoFlags()
 	if err := parseFlags(fs, args); err != nil {
@@ -61,6 +65,20 @@ func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	}
 	studyDir := filepath.Join(*out, "study")
 	resultsDir := filepath.Join(*out, "results")
+	// The demo replaces an earlier demo in its folder, and nothing else: a
+	// folder that holds other files (a study of one's own, its results) is
+	// refused. A demo folder is known by its marker file.
+	if entries, err := os.ReadDir(*out); err == nil && len(entries) > 0 {
+		if _, err := os.Stat(filepath.Join(*out, demoMarker)); err != nil {
+			return fmt.Errorf("-o %s already holds files and is not a demo's folder (no %s in it); the demo writes study/ and results/ there, replacing what they hold: choose a new or empty folder", *out, demoMarker)
+		}
+	}
+	if err := os.MkdirAll(*out, 0o755); err != nil {
+		return fmt.Errorf("cannot make the demo folder: %v", err)
+	}
+	if err := os.WriteFile(filepath.Join(*out, demoMarker), []byte("This folder holds tessera's demo; `tessera demo -o` replaces it.\n"), 0o666); err != nil {
+		return fmt.Errorf("cannot write the demo folder's marker: %v", err)
+	}
 	st, err := simulate.Generate(simulate.Options{
 		Subjects: 6, Runs: 2, Volumes: 240, TR: 1.5, Design: "event",
 		WhiteShare: 0.5, Seed: 2026, Conditions: demoConditions,

@@ -548,3 +548,25 @@ func TestProvenanceCommand(t *testing.T) {
 		t.Errorf("report.md does not quote the command line")
 	}
 }
+
+// TestDemoKeepsOtherFolders: demo -o DIR replaces an earlier demo in DIR,
+// but refuses a folder that holds anything else (a study of one's own and
+// its results), which it would otherwise overwrite. (Found by an
+// adversarial sweep.)
+func TestDemoKeepsOtherFolders(t *testing.T) {
+	mine := filepath.Join(t.TempDir(), "mine")
+	if err := os.MkdirAll(filepath.Join(mine, "study"), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	own := filepath.Join(mine, "study", "study.csv")
+	if err := os.WriteFile(own, []byte("subject,run,tr,signals\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	code, _, stderr := runCLI("demo", "-o", mine)
+	if code != 1 || !strings.Contains(stderr, "is not a demo's folder") {
+		t.Errorf("demo into a folder of one's own: exit %d, %q", code, stderr)
+	}
+	if b, err := os.ReadFile(own); err != nil || string(b) != "subject,run,tr,signals\n" {
+		t.Errorf("the folder's own study table was changed: %q, %v", b, err)
+	}
+}
