@@ -84,8 +84,7 @@ func armaVariance(g []float64, phi, theta float64) float64 {
 // minimised at φ*(θ) = (S (1 + θ²) - g_0 θ) / (g_0 - 2 S θ) (clamped to
 // the limit), so the search is over θ alone (|θ| ≤ whittleMALimit): a grid
 // of 41 points, then
-// golden-section search (Kiefer 1953) on the bracket around the best one to
-// 1e-10. ok is false when no parameter value gives a positive variance (g
+// Brent's method (brentMin) on the bracket around the best one. ok is false when no parameter value gives a positive variance (g
 // not positive definite).
 func fitARMAWhittle(g []float64) (phi, theta, v float64, ok bool) {
 	gd := g[1:]
@@ -123,7 +122,7 @@ func fitARMAWhittle(g []float64) (phi, theta, v float64, ok bool) {
 	}
 	lo := math.Max(-tmax, -tmax+float64(best-1)*step)
 	hi := math.Min(tmax, -tmax+float64(best+1)*step)
-	th := goldenSection(func(x float64) float64 { v, _ := prof(x); return v }, lo, hi, 1e-10)
+	th := brentMin(func(x float64) float64 { v, _ := prof(x); return v }, lo, hi, 1e-10)
 	v, phi = prof(th)
 	if math.IsInf(v, 1) {
 		return 0, 0, 0, false
@@ -151,23 +150,84 @@ var whittleMALimit16 = math.Min(fastMALimit, math.Pow(0.01, 1.0/16))
 // maxPrecisionLags lags to precisionTol.
 var fastMALimit = math.Pow(precisionTol, 1/float64(maxPrecisionLags))
 
-// goldenSection minimises a unimodal f on [a, b] to a bracket of width tol.
-func goldenSection(f func(float64) float64, a, b, tol float64) float64 {
-	const r = 0.6180339887498949 // (sqrt(5) - 1) / 2
-	c, d := b-r*(b-a), a+r*(b-a)
-	fc, fd := f(c), f(d)
-	for b-a > tol {
-		if fc < fd {
-			b, d, fd = d, c, fc
-			c = b - r*(b-a)
-			fc = f(c)
+// brentMin minimises f on [a, b] by Brent's method (Brent 1973,
+// Algorithms for Minimization without Derivatives, ch. 5: golden-section
+// steps, and parabolic interpolation through the three best points where it
+// stays inside the bracket and shrinks it fast enough), as R's optimize():
+// it stops when the bracket around the best point x is within 2 tol1 of it,
+// tol1 = sqrt(ε)|x| + tol/3, ε the machine epsilon (closer than sqrt(ε)|x|,
+// f's values no longer tell points apart near a minimum). A parabola is
+// tried only through finite values, so regions where f is +Inf (no valid
+// model) take golden steps.
+func brentMin(f func(float64) float64, a, b, tol float64) float64 {
+	const cgold = 0.3819660112501051 // (3 - sqrt(5)) / 2
+	const sqrtEps = 1.4901161193847656e-08
+	x := a + cgold*(b-a)
+	w, v := x, x
+	fx := f(x)
+	fw, fv := fx, fx
+	d, e := 0.0, 0.0
+	for iter := 0; iter < 200; iter++ {
+		m := 0.5 * (a + b)
+		tol1 := sqrtEps*math.Abs(x) + tol/3
+		tol2 := 2 * tol1
+		if math.Abs(x-m) <= tol2-0.5*(b-a) {
+			break
+		}
+		golden := true
+		if math.Abs(e) > tol1 && !math.IsInf(fx, 0) && !math.IsInf(fw, 0) && !math.IsInf(fv, 0) {
+			r := (x - w) * (fx - fv)
+			q := (x - v) * (fx - fw)
+			p := (x-v)*q - (x-w)*r
+			q = 2 * (q - r)
+			if q > 0 {
+				p = -p
+			} else {
+				q = -q
+			}
+			r, e = e, d
+			if math.Abs(p) < math.Abs(0.5*q*r) && p > q*(a-x) && p < q*(b-x) {
+				d = p / q
+				if u := x + d; u-a < tol2 || b-u < tol2 {
+					d = math.Copysign(tol1, m-x)
+				}
+				golden = false
+			}
+		}
+		if golden {
+			if x < m {
+				e = b - x
+			} else {
+				e = a - x
+			}
+			d = cgold * e
+		}
+		u := x + d
+		if math.Abs(d) < tol1 {
+			u = x + math.Copysign(tol1, d)
+		}
+		fu := f(u)
+		if fu <= fx {
+			if u < x {
+				b = x
+			} else {
+				a = x
+			}
+			v, fv, w, fw, x, fx = w, fw, x, fx, u, fu
 		} else {
-			a, c, fc = c, d, fd
-			d = a + r*(b-a)
-			fd = f(d)
+			if u < x {
+				a = u
+			} else {
+				b = u
+			}
+			if fu <= fw || w == x {
+				v, fv, w, fw = w, fw, u, fu
+			} else if fu <= fv || v == x || v == w {
+				v, fv = u, fu
+			}
 		}
 	}
-	return (a + b) / 2
+	return x
 }
 
 // nelderMead minimises f from x0 with the simplex method of Nelder and Mead

@@ -223,3 +223,36 @@ func TestCholInverse(t *testing.T) {
 		}
 	}
 }
+
+// TestBrentMin: Brent's method finds the minima of functions whose minima
+// are known in closed form: a parabola, cos on [2, 4] (minimum at π), a
+// quartic with a flat bottom, |x - c| (no derivative at the minimum: golden
+// steps), and a function that is +Inf on part of the bracket (as the
+// Whittle profile is where no model has a positive variance). Tolerance:
+// the method's own, sqrt(ε)|x| + tol/3 per side of the final bracket, with
+// tol = 1e-10; the flat quartic is located only to about ε^(1/4).
+func TestBrentMin(t *testing.T) {
+	inf := math.Inf(1)
+	cases := []struct {
+		name    string
+		f       func(float64) float64
+		a, b, x float64
+		tol     float64
+	}{
+		{"parabola", func(x float64) float64 { return (x-0.3)*(x-0.3) + 1 }, -1, 1, 0.3, 1e-8},
+		{"cosine", math.Cos, 2, 4, math.Pi, 1e-7},
+		{"flat quartic", func(x float64) float64 { d := x + 0.2; return d * d * d * d }, -1, 1, -0.2, 2e-4},
+		{"kink", func(x float64) float64 { return math.Abs(x - 0.123) }, -1, 1, 0.123, 1e-8},
+		{"infinite left", func(x float64) float64 {
+			if x < -0.5 {
+				return inf
+			}
+			return (x - 0.25) * (x - 0.25)
+		}, -1, 1, 0.25, 1e-8},
+	}
+	for _, c := range cases {
+		if x := brentMin(c.f, c.a, c.b, 1e-10); math.Abs(x-c.x) > c.tol {
+			t.Errorf("%s: minimum at %.12g, want %.12g", c.name, x, c.x)
+		}
+	}
+}
