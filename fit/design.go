@@ -152,6 +152,12 @@ func BuildDesign(s DesignSpec) (*Design, error) {
 	if s.Volumes < 1 {
 		return nil, fmt.Errorf("run has no volumes")
 	}
+	if !(s.TR >= roi.MinTR) || math.IsInf(s.TR, 0) {
+		return nil, &optionError{fmt.Sprintf("TR %g s: expected a repetition time of at least %g s", s.TR, roi.MinTR)}
+	}
+	if s.Highpass > 0 && s.Highpass < 2*s.TR {
+		return nil, &optionError{fmt.Sprintf("--highpass %g s is shorter than two volumes (2 TR = %g s), so its cosine terms would take every frequency of the run; use a longer period (128 s is common practice) or 0 for none", s.Highpass, 2*s.TR)}
+	}
 	switch s.HRF {
 	case "", HRFDoubleGamma, HRFGamma, HRFFIR:
 	default:
@@ -246,6 +252,12 @@ func (b *builder) add(col []float64, t Term) {
 	b.cols = append(b.cols, col)
 	b.d.Terms = append(b.d.Terms, t)
 }
+
+// optionError is a problem with the run's TR or an option, which comes from
+// no input file.
+type optionError struct{ msg string }
+
+func (e *optionError) Error() string { return e.msg }
 
 // columnError is a problem with a motion or confound column, which comes
 // from the run's confounds table.

@@ -15,9 +15,10 @@ func CosineDrift(n int, tr, highpass float64) [][]float64 {
 	if highpass <= 0 || n < 2 {
 		return nil
 	}
-	K := int(math.Floor(2 * float64(n) * tr / highpass))
-	if K > n-1 {
-		K = n - 1
+	kf := math.Floor(2 * float64(n) * tr / highpass)
+	K := n - 1
+	if kf < float64(K) { // (compared as floats: a huge kf would not convert to an int)
+		K = int(kf)
 	}
 	cols := make([][]float64, K)
 	s := math.Sqrt(2 / float64(n))

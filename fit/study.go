@@ -304,7 +304,11 @@ func planRun(r *roi.Run, o Options) (*RunPlan, error) {
 	d, err := BuildDesign(spec)
 	if err != nil {
 		var ce *columnError
-		if errors.As(err, &ce) && r.Spec.Confounds != "" {
+		var oe *optionError
+		switch {
+		case errors.As(err, &oe):
+			return nil, fmt.Errorf("run %s: %v", key, err)
+		case errors.As(err, &ce) && r.Spec.Confounds != "":
 			return nil, fmt.Errorf("run %s (%s): %v", key, r.Spec.Confounds, err)
 		}
 		if !errors.As(err, &ce) && r.Spec.Events != "" {

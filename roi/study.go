@@ -16,6 +16,12 @@ import (
 // written in milliseconds.
 const maxTR = 20
 
+// MinTR is the shortest repetition time accepted, in seconds: no volume is
+// acquired faster (the fastest multiband sequences take about 0.1 s), and
+// the response is sampled on a grid finer than the TR, whose size a TR near
+// 0 would make unbounded.
+const MinTR = 0.01
+
 // studyRow is one row of the study table as gocsv fills it. Every field is
 // text so that each value is checked here, with its line and column.
 type studyRow struct {
@@ -185,6 +191,8 @@ func checkTR(text string, tr float64) (found, expected string) {
 	switch {
 	case math.IsNaN(tr) || math.IsInf(tr, 0) || tr <= 0:
 		return fmt.Sprintf("tr %s is not more than 0", text), "the repetition time in seconds, more than 0"
+	case tr < MinTR:
+		return fmt.Sprintf("tr %s is below %g s, shorter than any volume's acquisition", text, MinTR), "the repetition time in seconds, at least 0.01"
 	case tr > maxTR:
 		return fmt.Sprintf("tr %s is more than %d and looks like milliseconds", text, maxTR),
 			fmt.Sprintf("the repetition time in seconds, at most %d (tr is in seconds: %s ms would be %g s)", maxTR, text, tr/1000)

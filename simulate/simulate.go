@@ -93,8 +93,8 @@ func (o *Options) Validate() error {
 		return fmt.Errorf("--subjects, --runs and --regions must be at least 1")
 	case o.Volumes < 20:
 		return fmt.Errorf("--volumes %d: expected at least 20", o.Volumes)
-	case o.TR <= 0 || o.TR > 20:
-		return fmt.Errorf("--tr %g: expected seconds between 0 and 20", o.TR)
+	case !(o.TR >= roi.MinTR) || o.TR > 20:
+		return fmt.Errorf("--tr %g: expected seconds from %g to 20", o.TR, roi.MinTR)
 	case o.Design != "block" && o.Design != "event":
 		return fmt.Errorf("--design %q: expected block or event", o.Design)
 	case o.NullShare < 0 || o.NullShare > 1:

@@ -256,3 +256,33 @@ func TestNoRunFittable(t *testing.T) {
 		t.Errorf("exit %d, %q", code, stderr)
 	}
 }
+
+// TestNonFiniteAndTinyFlags: number flags refuse NaN and infinities as
+// usage errors (a range check such as x < 0 lets NaN through), and a TR or
+// a high-pass period too short to sample is refused in words. Before,
+// --slice-ref nan and --highpass 1e-300 panicked while the design was
+// built, --censor-fd nan hung drawing the displacement figure, and
+// simulate --tr 1e-300 panicked. (Found by an adversarial sweep.)
+func TestNonFiniteAndTinyFlags(t *testing.T) {
+	study := simulateStudy(t, 1, 1, 2, 60, 3)
+	dir := filepath.Join(filepath.Dir(study), "sub-01")
+	s, e, c := filepath.Join(dir, "sub-01_run-1_signals.csv"), filepath.Join(dir, "sub-01_run-1_events.tsv"), filepath.Join(dir, "sub-01_run-1_confounds.csv")
+	for _, f := range [][]string{{"--slice-ref", "nan"}, {"--highpass", "NaN"}, {"--censor-fd", "nan"}, {"--tr", "inf"}, {"--fir-window", "-Inf"}, {"--vif-max", "nan"}} {
+		args := append([]string{"fit", "-s", s, "-e", e, "-c", c, "--tr", "2", "-o", filepath.Join(t.TempDir(), "out")}, f...)
+		if code, _, stderr := runCLI(args...); code != 2 || !strings.Contains(stderr, "--"+strings.TrimPrefix(f[0], "--")+" ") || !strings.Contains(stderr, "expected a finite number") {
+			t.Errorf("%v: exit %d, %q", f, code, stderr)
+		}
+	}
+	code, _, stderr := runCLI("fit", "-s", s, "-e", e, "--tr", "2", "-o", filepath.Join(t.TempDir(), "out"), "--highpass", "1e-300")
+	if code != 1 || !strings.Contains(stderr, "--highpass 1e-300 s is shorter than two volumes") || strings.Contains(stderr, "events.tsv") {
+		t.Errorf("--highpass 1e-300: exit %d, %q", code, stderr)
+	}
+	code, _, stderr = runCLI("fit", "-s", s, "-e", e, "--tr", "0.001", "-o", filepath.Join(t.TempDir(), "out"))
+	if code != 2 || !strings.Contains(stderr, "--tr 0.001: expected seconds, at least 0.01") {
+		t.Errorf("--tr 0.001: exit %d, %q", code, stderr)
+	}
+	code, _, stderr = runCLI("simulate", "-o", filepath.Join(t.TempDir(), "sim"), "--tr", "1e-300")
+	if code != 2 || !strings.Contains(stderr, "--tr 1e-300: expected seconds from 0.01 to 20") {
+		t.Errorf("simulate --tr 1e-300: exit %d, %q", code, stderr)
+	}
+}

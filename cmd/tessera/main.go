@@ -12,8 +12,10 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"os/signal"
+	"strconv"
 	"strings"
 	"syscall"
 
@@ -158,5 +160,16 @@ func parseFlags(fs *flag.FlagSet, args []string) error {
 	if err := fs.Parse(args); err != nil {
 		return usagef("%v", err)
 	}
-	return nil
+	// No number flag takes NaN or an infinity (strconv reads both), and a
+	// range check such as x < 0 lets NaN through.
+	var bad error
+	fs.VisitAll(func(f *flag.Flag) {
+		if bad != nil || f.Value.Type() != "float64" {
+			return
+		}
+		if v, err := strconv.ParseFloat(f.Value.String(), 64); err == nil && (math.IsNaN(v) || math.IsInf(v, 0)) {
+			bad = usagef("--%s %s: expected a finite number", f.Name, f.Value.String())
+		}
+	})
+	return bad
 }

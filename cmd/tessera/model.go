@@ -184,8 +184,8 @@ func (m *modelFlags) options() (fit.Options, error) {
 	if m.highpass < 0 {
 		return o, usagef("--highpass %g: expected seconds >= 0", m.highpass)
 	}
-	if m.tr < 0 {
-		return o, usagef("--tr %g: expected seconds > 0", m.tr)
+	if m.tr < 0 || (m.tr > 0 && m.tr < roi.MinTR) {
+		return o, usagef("--tr %g: expected seconds, at least %g", m.tr, roi.MinTR)
 	}
 	if m.tr > 20 {
 		return o, usagef("--tr %g: that looks like milliseconds; --tr is in seconds (e.g. --tr %g)", m.tr, m.tr/1000)
