@@ -68,6 +68,9 @@ func Merge(dirs []string, out *Output) error {
 	if len(missing) > 0 {
 		return fmt.Errorf("shards %s of %d are missing; merge needs every shard", strings.Join(missing, ", "), first.Count)
 	}
+	if err := checkShardsComplete(dirs, provs); err != nil {
+		return err
+	}
 	runOrder := map[string]int{}
 	for i, r := range first.Runs {
 		runOrder[r.Subject+"\x00"+r.Session+"\x00"+r.Run] = i
@@ -188,6 +191,110 @@ func sameOptions(a, b map[string]string) bool {
 }
 
 // readTable reads a result table; ok is false when the file does not exist.
+// alwaysWritten are the tables every fit writes; the others depend on the
+// options (ftests, responses), which merge has checked are the same in
+// every shard, or on the data (motion, for runs with motion columns).
+var alwaysWritten = []TableDef{Estimates, Contrasts, SubjectContrasts, Diagnostics, AuditTable, Autocorrelation}
+
+// checkShardsComplete refuses shard folders that do not hold what their
+// fit wrote, so that a folder copied back from a cluster node in part
+// cannot merge into tables that silently lack its subjects: every shard
+// has the tables every fit writes, and the option-dependent ones where any
+// shard has them; its diagnostics.csv has rows for exactly the runs of its
+// subjects (subject i of the study, from 0, belongs to shard i mod N + 1),
+// and design/ a table for each; every fitted region of diagnostics.csv has
+// estimates and every region with estimates a diagnostics row.
+func checkShardsComplete(dirs []string, provs []*Provenance) error {
+	required := map[string]bool{}
+	for _, t := range alwaysWritten {
+		required[t.File] = true
+	}
+	for _, t := range []TableDef{FTests, Responses} {
+		for _, d := range dirs {
+			if _, err := os.Stat(filepath.Join(d, t.File)); err == nil {
+				required[t.File] = true
+			}
+		}
+	}
+	for i, d := range dirs {
+		for _, t := range Tables {
+			if !required[t.File] {
+				continue
+			}
+			if _, err := os.Stat(filepath.Join(d, t.File)); err != nil {
+				return fmt.Errorf("%s lacks %s, which its fit writes: the shard's folder is incomplete (copied back in part?); fit the shard again or copy all of it", d, t.File)
+			}
+		}
+		sh := provs[i].Shard
+		subj := map[string]int{}
+		for k, s := range sh.Subjects {
+			subj[s] = k
+		}
+		want := map[string]bool{}
+		for _, r := range sh.Runs {
+			if subj[r.Subject]%sh.Count == sh.Index-1 {
+				want[r.Subject+"\x00"+r.Session+"\x00"+r.Run] = true
+				key := r.Subject + "_" + r.Run
+				if r.Session != "" {
+					key = r.Subject + "_" + r.Session + "_" + r.Run
+				}
+				if _, err := os.Stat(filepath.Join(d, "design", key+".csv")); err != nil {
+					return fmt.Errorf("%s lacks design/%s.csv, which its fit writes: the shard's folder is incomplete; fit the shard again or copy all of it", d, key)
+				}
+			}
+		}
+		_, diag, _, err := readTable(filepath.Join(d, Diagnostics.File))
+		if err != nil {
+			return err
+		}
+		_, est, _, err := readTable(filepath.Join(d, Estimates.File))
+		if err != nil {
+			return err
+		}
+		got := map[string]bool{}
+		fitted := map[string]bool{}
+		for _, r := range diag {
+			if len(r) < 10 {
+				return fmt.Errorf("%s/%s: a row of %d cells; expected the table's columns", d, Diagnostics.File, len(r))
+			}
+			run := r[0] + "\x00" + r[1] + "\x00" + r[2]
+			if !want[run] {
+				return fmt.Errorf("%s/%s has rows of subject %q, run %q, which is not a run of shard %d of %d", d, Diagnostics.File, r[0], r[2], sh.Index, sh.Count)
+			}
+			got[run] = true
+			if !strings.HasPrefix(r[9], "skipped:") {
+				fitted[run+"\x00"+r[3]] = true
+			}
+		}
+		for run := range want {
+			if !got[run] {
+				parts := strings.Split(run, "\x00")
+				return fmt.Errorf("%s/%s has no rows of subject %q, run %q, a run of this shard: the shard's folder is incomplete", d, Diagnostics.File, parts[0], parts[2])
+			}
+		}
+		withEst := map[string]bool{}
+		for _, r := range est {
+			if len(r) < 4 {
+				return fmt.Errorf("%s/%s: a row of %d cells; expected the table's columns", d, Estimates.File, len(r))
+			}
+			withEst[r[0]+"\x00"+r[1]+"\x00"+r[2]+"\x00"+r[3]] = true
+		}
+		for k := range fitted {
+			if !withEst[k] {
+				parts := strings.Split(k, "\x00")
+				return fmt.Errorf("%s/%s has no rows of subject %q, run %q, region %q, which diagnostics.csv lists as fitted: the shard's tables do not match", d, Estimates.File, parts[0], parts[2], parts[3])
+			}
+		}
+		for k := range withEst {
+			if !fitted[k] {
+				parts := strings.Split(k, "\x00")
+				return fmt.Errorf("%s/%s has no fitted row of subject %q, run %q, region %q, which estimates.csv holds: the shard's tables do not match", d, Diagnostics.File, parts[0], parts[2], parts[3])
+			}
+		}
+	}
+	return nil
+}
+
 func readTable(path string) (head []string, rows [][]string, ok bool, err error) {
 	f, err := os.Open(path)
 	if os.IsNotExist(err) {
@@ -199,7 +306,7 @@ func readTable(path string) (head []string, rows [][]string, ok bool, err error)
 	defer f.Close()
 	all, err := csv.NewReader(f).ReadAll()
 	if err != nil {
-		return nil, nil, false, fmt.Errorf("%s: %v", path, err)
+		return nil, nil, false, fmt.Errorf("%s: %v; expected a complete table as fit writes it (is the copy truncated?)", path, err)
 	}
 	if len(all) == 0 {
 		return nil, nil, false, fmt.Errorf("%s: empty; expected a header", path)

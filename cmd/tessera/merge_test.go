@@ -96,3 +96,45 @@ func TestShardWithoutACondition(t *testing.T) {
 		t.Errorf("misspelt condition in a shard: exit %d, %q", code, stderr)
 	}
 }
+
+// TestMergeRefusesIncompleteShards: a shard folder that lacks a table, a
+// design file, or a diagnostics row of a fitted region (a partial copy
+// back from a cluster node) is refused, naming what is missing, instead of
+// merging into tables that silently lack its subjects. (Found by an
+// adversarial sweep.)
+func TestMergeRefusesIncompleteShards(t *testing.T) {
+	study := simulateStudy(t, 4, 1, 3, 80, 1)
+	tmp := t.TempDir()
+	fitShard := func(name, shard string) string {
+		dir := filepath.Join(tmp, name)
+		mustRun(t, "fit", study, "-o", dir, "--shard", shard)
+		return dir
+	}
+	one := fitShard("one", "1/2")
+	cases := []struct {
+		name, want string
+		damage     func(dir string) error
+	}{
+		{"no estimates", "lacks estimates.csv", func(d string) error { return os.Remove(filepath.Join(d, "estimates.csv")) }},
+		{"no design file", "lacks design/02_1.csv", func(d string) error { return os.Remove(filepath.Join(d, "design", "02_1.csv")) }},
+		{"a diagnostics row gone", "which estimates.csv holds", func(d string) error {
+			p := filepath.Join(d, "diagnostics.csv")
+			b, err := os.ReadFile(p)
+			if err != nil {
+				return err
+			}
+			lines := strings.SplitAfter(string(b), "\n")
+			return os.WriteFile(p, []byte(strings.Join(append(lines[:2:2], lines[3:]...), "")), 0o644)
+		}},
+	}
+	for _, c := range cases {
+		two := fitShard("two-"+strings.ReplaceAll(c.name, " ", "-"), "2/2")
+		if err := c.damage(two); err != nil {
+			t.Fatal(err)
+		}
+		code, _, stderr := runCLI("merge", one, two, "-o", filepath.Join(tmp, "m-"+strings.ReplaceAll(c.name, " ", "-")))
+		if code != 1 || !strings.Contains(stderr, c.want) {
+			t.Errorf("%s: exit %d, %q", c.name, code, stderr)
+		}
+	}
+}
