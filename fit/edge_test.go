@@ -659,3 +659,53 @@ func TestSignalScale(t *testing.T) {
 		t.Errorf("2^400: skip %q", r.Skip)
 	}
 }
+
+// TestContrastAndFTestNamesChecked: a contrast whose weights are all zero,
+// two F tests with one name, an F test named like a condition's own F test
+// (with --hrf fir), and an F-test row of zero weights are refused when the
+// study is planned. Before, they gave rows with a standard error of 0 and
+// empty t and p, or two rows of one key in ftests.csv. (Found by an
+// adversarial sweep.)
+func TestContrastAndFTestNamesChecked(t *testing.T) {
+	st, err := simulate.Generate(simulate.Options{Subjects: 1, Runs: 1, Regions: 2, Volumes: 80, TR: 2, Design: "event", Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	contrast := func(s string) fit.Contrast {
+		c, err := fit.ParseContrast(s)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return c
+	}
+	ftest := func(s string) fit.FTest {
+		f, err := fit.ParseFTest(s)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return f
+	}
+	base := fit.Options{SliceRef: 0.5, Highpass: 128, HRF: fit.HRFDoubleGamma, Noise: fit.NoiseModel{Name: "none"}.Resolve(), Jobs: 1}
+	cases := []struct {
+		name string
+		set  func(o *fit.Options)
+		want string
+	}{
+		{"zero contrast", func(o *fit.Options) { o.Contrasts = []fit.Contrast{contrast("z = ordered - ordered")} }, `contrast "z" (ordered - ordered) has weights that are all zero`},
+		{"two F tests of one name", func(o *fit.Options) {
+			o.FTests = []fit.FTest{ftest("both = ordered; jumbled"), ftest("both = ordered")}
+		}, `two F tests are named "both"`},
+		{"F test named like a condition's own", func(o *fit.Options) {
+			o.HRF, o.FIRWindow, o.FIRBins = fit.HRFFIR, 20, 5
+			o.FTests = []fit.FTest{ftest("ordered = ordered:bin:1; ordered:bin:2")}
+		}, `F test "ordered" has the name of condition "ordered"'s own F test`},
+		{"zero F-test row", func(o *fit.Options) { o.FTests = []fit.FTest{ftest("f = ordered; 0*jumbled")} }, `F test "f" has a row "0*jumbled" whose weights are all zero`},
+	}
+	for _, c := range cases {
+		o := base
+		c.set(&o)
+		if _, err := fit.Plan(st.Inputs(), o); err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%s: error %v", c.name, err)
+		}
+	}
+}

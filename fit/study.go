@@ -159,6 +159,20 @@ func FinishPlan(plans []*RunPlan, o Options) ([]*RunPlan, error) {
 	if err := checkContrasts(plans, o.Contrasts, o.FTests, o.StudyConditions); err != nil {
 		return nil, err
 	}
+	if len(o.Derivatives) > 0 || o.HRF == HRFFIR {
+		// Every condition then gets an F test named after it (FitStudy).
+		conds := o.StudyConditions
+		if conds == nil {
+			conds = Conditions(plans)
+		}
+		for _, f := range o.FTests {
+			for _, c := range conds {
+				if f.Name == c {
+					return nil, fmt.Errorf("F test %q has the name of condition %q's own F test, which every condition gets with --hrf fir or --hrf-derivatives; give it another name", f.Name, c)
+				}
+			}
+		}
+	}
 	foreignConditionWarnings(plans)
 	cs := o.Contrasts
 	if len(cs) == 0 {
@@ -441,7 +455,25 @@ func checkContrasts(plans []*RunPlan, cs []Contrast, fts []FTest, study []string
 			}
 		}
 	}
+	zero := func(c Contrast) bool {
+		for _, w := range c.Weights {
+			if w != 0 {
+				return false
+			}
+		}
+		return true
+	}
+	seenF := map[string]bool{}
 	for _, f := range fts {
+		if seenF[f.Name] {
+			return fmt.Errorf("two F tests are named %q; give each its own name", f.Name)
+		}
+		seenF[f.Name] = true
+		for _, r := range f.Rows {
+			if zero(r) {
+				return fmt.Errorf("F test %q has a row %q whose weights are all zero, which tests nothing; remove it", f.Name, r.Expr)
+			}
+		}
 		if err := f.Check(known); err != nil {
 			return err
 		}
@@ -452,6 +484,9 @@ func checkContrasts(plans []*RunPlan, cs []Contrast, fts []FTest, study []string
 			return fmt.Errorf("two contrasts are named %q; give each its own name", c.Name)
 		}
 		seen[c.Name] = true
+		if zero(c) {
+			return fmt.Errorf("contrast %q (%s) has weights that are all zero, so it estimates nothing; give it a condition with a weight that is not 0", c.Name, c.Expr)
+		}
 		if err := c.Check(known); err != nil {
 			return err
 		}
