@@ -239,9 +239,18 @@ type figureJob struct {
 	png  bytes.Buffer
 }
 
-// save queues p for drawing at w×h pixels into figures/NAME.png (NAME
-// made unique).
+// maxFigureName is the longest figure file name kept, before ".png" and a
+// suffix that makes it unique (names are ASCII after fileSafe).
+const maxFigureName = 120
+
+// save queues p for drawing at w×h pixels into figures/NAME.png (NAME cut
+// to maxFigureName bytes and made unique).
 func (fw *figureWriter) save(name, caption string, p *plot.Plot, w, h int) {
+	if len(name) > maxFigureName {
+		// Long region or condition names would exceed the file system's
+		// limit on a name (255 bytes); the caption keeps the full name.
+		name = name[:maxFigureName]
+	}
 	base := name
 	for i := 2; fw.used[name]; i++ {
 		name = fmt.Sprintf("%s-%d", base, i)

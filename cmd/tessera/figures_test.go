@@ -110,3 +110,37 @@ func TestGroupFigures(t *testing.T) {
 		}
 	}
 }
+
+// TestLongNamesFigureFiles: a region named with 300 characters fits, its
+// figures' file names cut to fit the file system's limit (255 bytes), its
+// tables holding the whole name. Before, the fit stopped at the figures with
+// "file name too long" and wrote no table. (Found by an adversarial sweep.)
+func TestLongNamesFigureFiles(t *testing.T) {
+	study := simulateStudy(t, 1, 1, 2, 80, 4)
+	sig := filepath.Join(filepath.Dir(study), "sub-01", "sub-01_run-1_signals.csv")
+	b, err := os.ReadFile(sig)
+	if err != nil {
+		t.Fatal(err)
+	}
+	long := strings.Repeat("r", 300)
+	lines := strings.SplitN(string(b), "\n", 2)
+	cols := strings.Split(lines[0], ",")
+	cols[0] = long
+	if err := os.WriteFile(sig, []byte(strings.Join(cols, ",")+"\n"+lines[1]), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(t.TempDir(), "out")
+	mustRun(t, "fit", study, "-o", out)
+	figs, err := os.ReadDir(filepath.Join(out, "figures"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, f := range figs {
+		if len(f.Name()) > 255 {
+			t.Errorf("figure file name of %d bytes", len(f.Name()))
+		}
+	}
+	if d, err := os.ReadFile(filepath.Join(out, "diagnostics.csv")); err != nil || !strings.Contains(string(d), long) {
+		t.Errorf("diagnostics.csv lacks the full region name (%v)", err)
+	}
+}
