@@ -114,7 +114,7 @@ func GroupMarkdown(res *fit.GroupResult, info GroupReportInfo) string {
 				if !math.IsNaN(r.Effect.D) {
 					d = fmt.Sprintf("%.2f (%.2f, %.2f)", r.Effect.D, r.Effect.Low, r.Effect.High)
 				}
-				p("| %s | %d | %.3g (%.3g, %.3g) | %.2f | %.3g | %s | %s | %s |", r.Region, r.N, r.Estimate,
+				p("| %s | %d | %.3g (%.3g, %.3g) | %.2f | %.3g | %s | %s | %s |", mdText(r.Region), r.N, r.Estimate,
 					r.Estimate-half, r.Estimate+half, r.Statistic, r.DF, FormatQ(r.Q), FormatQ(r.PHolm), d)
 				if s.Weighted {
 					p(" %.3g |", r.Tau2)
@@ -144,7 +144,7 @@ func GroupMarkdown(res *fit.GroupResult, info GroupReportInfo) string {
 				break
 			}
 			pw := r.Power
-			p("| %s | %s | %s | %d | %.2f (%.2f, %.2f) | %s | %s | %s | %.2f |\n", c, r.Region, r.Term, r.N,
+			p("| %s | %s | %s | %d | %.2f (%.2f, %.2f) | %s | %s | %s | %.2f |\n", mdText(c), mdText(r.Region), mdText(r.Term), r.N,
 				r.Effect.D, r.Effect.Low, r.Effect.High, sizeText(pw.NFor80, pw.Groups), sizeText(pw.NFor90, pw.Groups),
 				sizeText(pw.NFor80AtEdge, pw.Groups), pw.Detectable)
 		}

@@ -152,7 +152,7 @@ func Markdown(res *fit.StudyResult, info ReportInfo) string {
 				break
 			}
 			s := &res.Subjects[rows[k]]
-			p("| %s | %s | %d | %.3f | %.2f | %d | %s |\n", s.Subject, s.Region, s.Runs, s.PSC, s.Statistic, s.DF, FormatQ(s.Q))
+			p("| %s | %s | %d | %.3f | %.2f | %d | %s |\n", mdText(s.Subject), mdText(s.Region), s.Runs, s.PSC, s.Statistic, s.DF, FormatQ(s.Q))
 		}
 		if len(rows) == 0 {
 			p("| (not estimated in any run) | | | | | | |\n")
@@ -183,7 +183,7 @@ func Markdown(res *fit.StudyResult, info ReportInfo) string {
 			}
 			x := rr[k]
 			cf := x.run.Contrasts[ci][x.region]
-			p("| %s | %s | %.3f | %.2f | %d | %s |\n", x.run.Plan.Run.Spec.Key(), x.run.Fit.Regions[x.region].Region, cf.PSC, cf.Statistic, cf.DF, FormatQ(x.run.Q[ci][x.region]))
+			p("| %s | %s | %.3f | %.2f | %d | %s |\n", mdText(x.run.Plan.Run.Spec.Key()), mdText(x.run.Fit.Regions[x.region].Region), cf.PSC, cf.Statistic, cf.DF, FormatQ(x.run.Q[ci][x.region]))
 		}
 		p("\n")
 	}
@@ -370,7 +370,7 @@ func writeFTests(p func(string, ...any), res *fit.StudyResult) {
 			}
 			x := rows[k]
 			f := x.run.FTests[fi][x.region]
-			p("| %s | %s | %.2f | %d, %d | %s | %s |\n", x.run.Plan.Run.Spec.Key(), x.run.Fit.Regions[x.region].Region, f.Statistic, f.DFNum, f.DFDen, FormatQ(f.PValue), FormatQ(x.run.FQ[fi][x.region]))
+			p("| %s | %s | %.2f | %d, %d | %s | %s |\n", mdText(x.run.Plan.Run.Spec.Key()), mdText(x.run.Fit.Regions[x.region].Region), f.Statistic, f.DFNum, f.DFDen, FormatQ(f.PValue), FormatQ(x.run.FQ[fi][x.region]))
 		}
 		p("\n")
 	}
@@ -410,3 +410,24 @@ func rankOrder(vs []float64, before func(a, b float64) bool) []int {
 // first, smaller values first.
 func largerFirst(a, b float64) bool  { return a > b }
 func smallerFirst(a, b float64) bool { return a < b }
+
+// mdText escapes a name (region, subject, condition) for a Markdown table
+// cell or running text: a backslash before the characters Markdown gives a
+// meaning (| ends a cell; * ` [ ] mark emphasis, code and links; < >
+// start HTML), so that the name shows as it is written. An underscore
+// inside a word (region_002) marks nothing in GitHub's Markdown and is
+// left as it is.
+func mdText(s string) string {
+	if !strings.ContainsAny(s, "\\|*`[]<>") {
+		return s
+	}
+	var b strings.Builder
+	for _, r := range s {
+		switch r {
+		case '\\', '|', '*', '`', '[', ']', '<', '>':
+			b.WriteByte('\\')
+		}
+		b.WriteRune(r)
+	}
+	return b.String()
+}

@@ -50,3 +50,23 @@ func TestNumMissing(t *testing.T) {
 		}
 	}
 }
+
+// TestMarkdownNames: names with characters Markdown gives a meaning are
+// escaped in report tables (a | in a region name had split its row into
+// another column; <b> passed as HTML; *x* became emphasis), and ordinary
+// names, region_002 among them, stay as they are. (Found by an adversarial
+// sweep.)
+func TestMarkdownNames(t *testing.T) {
+	for in, want := range map[string]string{
+		"region_002": "region_002",
+		"a|b":        `a\|b`,
+		"<b>x</b>":   `\<b\>x\</b\>`,
+		"*em*":       `\*em\*`,
+		"c:\\d`e`":   "c:\\\\d\\`e\\`",
+		"[link]":     `\[link\]`,
+	} {
+		if got := mdText(in); got != want {
+			t.Errorf("mdText(%q) = %q, want %q", in, got, want)
+		}
+	}
+}
