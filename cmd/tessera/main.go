@@ -66,6 +66,10 @@ func main() {
 	os.Exit(run(os.Args[1:], os.Stdout, os.Stderr))
 }
 
+// errInterrupted is the error of a command other than fit stopped by
+// SIGINT or SIGTERM before it committed its output.
+var errInterrupted = errors.New("interrupted")
+
 // run executes one command line and returns the exit status: 0 done, 1 bad
 // input or a model that cannot be fitted, 2 bad usage.
 func run(args []string, stdout, stderr io.Writer) int {
@@ -117,6 +121,10 @@ func run(args []string, stdout, stderr io.Writer) int {
 	var ie *fit.Interrupted
 	if errors.As(err, &ie) {
 		fmt.Fprintf(stderr, "tessera %s: %v; nothing was written (no table is partial). Run the command again to fit everything.\n", c.name, err)
+		return exitInterrupted
+	}
+	if errors.Is(err, errInterrupted) {
+		fmt.Fprintf(stderr, "tessera %s: interrupted; nothing was written (no table is partial). Run the command again.\n", c.name)
 		return exitInterrupted
 	}
 	var ue *usageError

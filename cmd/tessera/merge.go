@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"io"
 
@@ -19,7 +20,7 @@ tessera merge part1 part2 -o results`,
 	flags: func() *flag.FlagSet { fs, _, _ := mergeFlags(); return fs },
 }
 
-func init() { mergeCommand.run = runMerge }
+func init() { mergeCommand.runCtx = runMerge }
 
 func mergeFlags() (*flag.FlagSet, *string, *bool) {
 	fs := flag.NewFlagSet("merge", flag.ContinueOnError)
@@ -28,7 +29,7 @@ func mergeFlags() (*flag.FlagSet, *string, *bool) {
 	return fs, out, over
 }
 
-func runMerge(args []string, stdout, stderr io.Writer) error {
+func runMerge(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 	fs, out, over := mergeFlags()
 	if err := parseFlags(fs, args); err != nil {
 		return err
@@ -50,6 +51,12 @@ func runMerge(args []string, stdout, stderr io.Writer) error {
 	if err := report.Merge(dirs, o); err != nil {
 		o.Abort()
 		return err
+	}
+	if ctx.Err() != nil {
+		// SIGINT or SIGTERM while merging: nothing is committed, and the
+		// temporary files go.
+		o.Abort()
+		return errInterrupted
 	}
 	if err := o.CommitReplacing(); err != nil {
 		return err

@@ -1,6 +1,8 @@
 package main
 
 import (
+	"context"
+	"errors"
 	"os"
 	"path/filepath"
 	"strings"
@@ -136,5 +138,36 @@ func TestMergeRefusesIncompleteShards(t *testing.T) {
 		if code != 1 || !strings.Contains(stderr, c.want) {
 			t.Errorf("%s: exit %d, %q", c.name, code, stderr)
 		}
+	}
+}
+
+// TestMergeInterrupted: a merge whose context is done (SIGINT or SIGTERM
+// arrived) commits nothing and leaves no temporary file: exit 130, as fit.
+// Before, SIGINT was ignored and SIGTERM left .NAME.csv.tmp-* files.
+// (Found by an adversarial sweep.)
+func TestMergeInterrupted(t *testing.T) {
+	study := simulateStudy(t, 2, 1, 2, 60, 2)
+	tmp := t.TempDir()
+	var parts []string
+	for _, s := range []string{"1/2", "2/2"} {
+		dir := filepath.Join(tmp, "part"+s[:1])
+		mustRun(t, "fit", study, "-o", dir, "--shard", s)
+		parts = append(parts, dir)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	out := filepath.Join(tmp, "merged")
+	var stdout, stderr strings.Builder
+	if err := runMerge(ctx, append(parts, "-o", out), &stdout, &stderr); !errors.Is(err, errInterrupted) {
+		t.Fatalf("error %v, want errInterrupted", err)
+	}
+	err := filepath.WalkDir(out, func(p string, d os.DirEntry, err error) error {
+		if err == nil && !d.IsDir() {
+			t.Errorf("left %s", p)
+		}
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
 	}
 }
