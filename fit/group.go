@@ -1,8 +1,10 @@
 package fit
 
 import (
+	"errors"
 	"fmt"
 	"math"
+	"strings"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -114,16 +116,35 @@ func Group(samples []GroupSample, spec GroupSpec) (*GroupResult, error) {
 	for _, c := range spec.Covariates {
 		res.Terms = append(res.Terms, CovariateTerm(c))
 	}
+	// Samples left out for one reason are listed under it, once.
+	var reasons []string
+	where := map[string][]string{}
 	for _, s := range samples {
 		rows, warn, err := groupSample(s, spec, res.Terms)
 		if err != nil {
 			return nil, fmt.Errorf("contrast %s, region %s: %v", s.Contrast, s.Region, err)
 		}
 		if warn != "" {
-			res.Warnings = append(res.Warnings, fmt.Sprintf("contrast %s, region %s: %s; left out", s.Contrast, s.Region, warn))
+			if _, ok := where[warn]; !ok {
+				reasons = append(reasons, warn)
+			}
+			where[warn] = append(where[warn], fmt.Sprintf("contrast %s, region %s", s.Contrast, s.Region))
 			continue
 		}
 		res.Rows = append(res.Rows, rows...)
+	}
+	for _, r := range reasons {
+		at := where[r]
+		if len(at) == 1 {
+			res.Warnings = append(res.Warnings, fmt.Sprintf("%s: %s; left out", at[0], r))
+			continue
+		}
+		list := at
+		more := ""
+		if len(at) > 4 {
+			list, more = at[:3], fmt.Sprintf("; and %d more", len(at)-3)
+		}
+		res.Warnings = append(res.Warnings, fmt.Sprintf("%s; left out for %d contrast-region pairs (%s%s)", r, len(at), strings.Join(list, "; "), more))
 	}
 	adjustAcrossRegions(res.Rows)
 	return res, nil
@@ -210,6 +231,9 @@ func groupSample(s GroupSample, spec GroupSpec, terms []string) ([]GroupRow, str
 	switch {
 	case len(spec.Covariates) > 0:
 		x := groupDesign(s, spec)
+		if why := collinearTerms(x, terms); why != "" {
+			return nil, why, nil
+		}
 		if spec.Weighted {
 			m, err := MixedEffects(x, s.Y, v)
 			if err != nil {
@@ -266,6 +290,36 @@ func groupSample(s GroupSample, spec GroupSpec, terms []string) ([]GroupRow, str
 		rows[j] = r
 	}
 	return rows, "", nil
+}
+
+// collinearTerms says, naming the terms, why the between-subject design x
+// (columns in the order of terms) cannot be fitted: a term that is the same
+// for every subject (zero after centring), or terms that are (nearly)
+// linear combinations of each other, as CheckDesign finds them; "" when x
+// can be fitted.
+func collinearTerms(x *mat.Dense, terms []string) string {
+	n, k := x.Dims()
+	for j := 1; j < k; j++ {
+		zero := true
+		for i := 0; i < n; i++ {
+			zero = zero && x.At(i, j) == 0
+		}
+		if zero {
+			return fmt.Sprintf("%s is the same for every subject in the model, so it cannot be estimated; leave it out", terms[j])
+		}
+	}
+	d := &Design{X: x}
+	for _, t := range terms {
+		d.Terms = append(d.Terms, Term{Name: t})
+	}
+	if _, err := CheckDesign("group", d); err != nil {
+		var de *DesignError
+		if errors.As(err, &de) {
+			return fmt.Sprintf("%s are (nearly) linear combinations of each other for these subjects, so they cannot be told apart; leave one out", strings.Join(de.Terms, " and "))
+		}
+		return err.Error()
+	}
+	return ""
 }
 
 // allEqual reports whether every value of y is the same.

@@ -205,3 +205,45 @@ func TestGroupConstantValues(t *testing.T) {
 		}
 	}
 }
+
+// TestGroupCollinearCovariates: a covariate that is the same for every
+// subject, or one that repeats the groups of a comparison, is named in the
+// warning (not "rank-deficient at column 2" of an internal design), and the
+// warning is given once for all the samples it concerns. (Found by an
+// adversarial sweep.)
+func TestGroupCollinearCovariates(t *testing.T) {
+	subj := []string{"a", "b", "c", "d", "e", "f"}
+	y := []float64{1.2, 0.4, 2.3, 0.9, 1.9, 0.3}
+	samples := []GroupSample{{Contrast: "c", Region: "r1", Subjects: subj, Y: y}, {Contrast: "c", Region: "r2", Subjects: subj, Y: y}}
+	info := map[string]Subject{}
+	for i, s := range subj {
+		info[s] = Subject{Group: i % 2, Covariates: []float64{1, float64(i % 2)}}
+	}
+	res, err := Group(samples, GroupSpec{Covariates: []string{"site"}, Subjects: map[string]Subject{
+		"a": {Covariates: []float64{1}}, "b": {Covariates: []float64{1}}, "c": {Covariates: []float64{1}},
+		"d": {Covariates: []float64{1}}, "e": {Covariates: []float64{1}}, "f": {Covariates: []float64{1}}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(res.Warnings) != 1 || !strings.Contains(res.Warnings[0], "covariate:site is the same for every subject") || !strings.Contains(res.Warnings[0], "left out for 2 contrast-region pairs") {
+		t.Errorf("constant covariate: warnings %q", res.Warnings)
+	}
+	res, err = Group(samples, GroupSpec{Compare: "arm", Levels: [2]string{"x", "y"}, Covariates: []string{"site", "patient"}, Subjects: info})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(res.Warnings) != 1 || !strings.Contains(res.Warnings[0], "covariate:site is the same") {
+		t.Errorf("constant site with a comparison: warnings %q", res.Warnings)
+	}
+	for s, v := range info {
+		v.Covariates = v.Covariates[1:] // patient only: the groups again
+		info[s] = v
+	}
+	res, err = Group(samples, GroupSpec{Compare: "arm", Levels: [2]string{"x", "y"}, Covariates: []string{"patient"}, Subjects: info})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(res.Warnings) != 1 || !strings.Contains(res.Warnings[0], "covariate:patient") || !strings.Contains(res.Warnings[0], "arm:y-x") || !strings.Contains(res.Warnings[0], "linear combinations") {
+		t.Errorf("covariate repeating the groups: warnings %q", res.Warnings)
+	}
+}
