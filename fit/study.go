@@ -88,6 +88,9 @@ type RunPlan struct {
 	// Skip says why the run is not fitted: SkipVolumes or SkipNoise; empty
 	// when it is fitted.
 	Skip string
+	// NoValues names the regions with no value in any volume (under
+	// --missing censor, they censor the whole run).
+	NoValues []string
 
 	skip    int
 	missing []bool // volumes censored because a signal value is missing
@@ -229,6 +232,29 @@ func planRun(r *roi.Run, o Options) (*RunPlan, error) {
 		if !o.MissingCensor {
 			return nil, fmt.Errorf("run %s: %s has missing or non-finite values; use --missing censor to censor those volumes", key, r.Spec.Signals)
 		}
+		// Which regions the missing values are in, the most first: one
+		// region with no value at all censors every volume of the run.
+		type count struct {
+			region string
+			n      int
+		}
+		var counts []count
+		for i, c := range p.Y {
+			k := 0
+			for _, v := range c {
+				if math.IsNaN(v) || math.IsInf(v, 0) {
+					k++
+				}
+			}
+			if k > 0 {
+				counts = append(counts, count{p.Regions[i], k})
+			}
+		}
+		sort.SliceStable(counts, func(a, b int) bool { return counts[a].n > counts[b].n })
+		var in []string
+		for _, c := range counts {
+			in = append(in, fmt.Sprintf("%s %d of %d", c.region, c.n, len(p.Y[0])))
+		}
 		p.Y = fillMissing(p.Y, missing)
 		p.missing = missing
 		var vols []string
@@ -237,7 +263,19 @@ func planRun(r *roi.Run, o Options) (*RunPlan, error) {
 				vols = append(vols, fmt.Sprint(v+skip))
 			}
 		}
-		p.Warnings = append(p.Warnings, fmt.Sprintf("run %s: volumes %s have missing or non-finite signal values and are censored for every region", key, joinMax(vols, 20)))
+		p.Warnings = append(p.Warnings, fmt.Sprintf("run %s: volumes %s have missing or non-finite signal values and are censored for every region (missing in %s)", key, joinMax(vols, 20), joinMax(in, 5)))
+		for _, c := range counts {
+			if c.n == len(p.Y[0]) {
+				p.NoValues = append(p.NoValues, c.region)
+			}
+		}
+		switch len(p.NoValues) {
+		case 0:
+		case 1:
+			p.Warnings = append(p.Warnings, fmt.Sprintf("run %s: region %s has no value in any volume, so censoring leaves nothing to fit; remove its column from the signals table", key, p.NoValues[0]))
+		default:
+			p.Warnings = append(p.Warnings, fmt.Sprintf("run %s: regions %s have no value in any volume, so censoring leaves nothing to fit; remove their columns from the signals table", key, joinMax(p.NoValues, 5)))
+		}
 	}
 	if r.Events != nil {
 		shift := float64(skip) * tr

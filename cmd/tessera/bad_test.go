@@ -286,3 +286,29 @@ func TestNonFiniteAndTinyFlags(t *testing.T) {
 		t.Errorf("simulate --tr 1e-300: exit %d, %q", code, stderr)
 	}
 }
+
+// TestRegionWithoutValues: under --missing censor, a region with no value
+// in any volume censors the whole run; the refusal names that region, not
+// only the count of censored volumes. (Found by an adversarial sweep.)
+func TestRegionWithoutValues(t *testing.T) {
+	study := simulateStudy(t, 1, 1, 3, 60, 6)
+	sig := filepath.Join(filepath.Dir(study), "sub-01", "sub-01_run-1_signals.csv")
+	b, err := os.ReadFile(sig)
+	if err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.Split(strings.TrimRight(string(b), "\n"), "\n")
+	for i := 1; i < len(lines); i++ {
+		cells := strings.Split(lines[i], ",")
+		cells[2] = "NA"
+		lines[i] = strings.Join(cells, ",")
+	}
+	if err := os.WriteFile(sig, []byte(strings.Join(lines, "\n")+"\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	region := strings.Split(lines[0], ",")[2]
+	code, _, stderr := runCLI("fit", study, "-o", filepath.Join(t.TempDir(), "out"), "--missing", "censor")
+	if code != 1 || !strings.Contains(stderr, "as region "+region+" has no value in any volume") {
+		t.Errorf("exit %d, %q", code, stderr)
+	}
+}

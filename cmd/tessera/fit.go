@@ -111,7 +111,11 @@ func fitStudy(ctx context.Context, fs *flag.FlagSet, m *modelFlags, args []strin
 				break
 			}
 			n, k := p.Design.X.Dims()
-			why = append(why, fmt.Sprintf("run %s: %d volumes, %d terms (%d of them for censored volumes): %s", p.Run.Spec.Key(), n, k, p.Design.CensoredCount(), p.Skip))
+			w := fmt.Sprintf("run %s: %d volumes, %d terms (%d of them for censored volumes): %s", p.Run.Spec.Key(), n, k, p.Design.CensoredCount(), p.Skip)
+			if len(p.NoValues) > 0 {
+				w += fmt.Sprintf(", as region %s has no value in any volume (remove its column)", strings.Join(p.NoValues, ", "))
+			}
+			why = append(why, w)
 		}
 		return nil, fmt.Errorf("no run can be fitted (%s); use fewer terms (drift, motion expansions, conditions), less censoring, or --noise none", strings.Join(why, "; "))
 	}
