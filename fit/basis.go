@@ -200,19 +200,7 @@ func (b *runBasis) covFactor(u, scratch []float64) []float64 {
 		gi := g[packedRow(i, k):packedRow(i+1, k)] // G_ij at gi[j-i]
 		j := i
 		for ; j+4 <= k; j += 4 {
-			r := ri[i : j+4]
-			n := len(r)
-			w0 := w[j*k+i : j*k+j+4][:n]
-			w1 := w[(j+1)*k+i : (j+1)*k+j+4][:n]
-			w2 := w[(j+2)*k+i : (j+2)*k+j+4][:n]
-			w3 := w[(j+3)*k+i : (j+3)*k+j+4][:n]
-			var s0, s1, s2, s3 float64
-			for p, c := range r {
-				s0 += c * w0[p]
-				s1 += c * w1[p]
-				s2 += c * w2[p]
-				s3 += c * w3[p]
-			}
+			s0, s1, s2, s3 := dot4(ri[i:j+4], w[j*k+i:], w[(j+1)*k+i:], w[(j+2)*k+i:], w[(j+3)*k+i:])
 			gi[j-i], gi[j-i+1], gi[j-i+2], gi[j-i+3] = s0, s1, s2, s3
 		}
 		for ; j < k; j++ {

@@ -122,18 +122,7 @@ func cholInverse(l []float64, k int, inv, u []float64) {
 			}
 			// Rows j0..j0+3 of U are zero left of their diagonals, so all
 			// four sums may start at column j0.
-			n := len(li) // the same length, so that indexing needs no checks
-			u0 := u[j0*k+j0 : j0*k+i][:n]
-			u1 := u[(j0+1)*k+j0 : (j0+1)*k+i][:n]
-			u2 := u[(j0+2)*k+j0 : (j0+2)*k+i][:n]
-			u3 := u[(j0+3)*k+j0 : (j0+3)*k+i][:n]
-			var s0, s1, s2, s3 float64
-			for p, c := range li {
-				s0 += c * u0[p]
-				s1 += c * u1[p]
-				s2 += c * u2[p]
-				s3 += c * u3[p]
-			}
+			s0, s1, s2, s3 := dot4(li, u[j0*k+j0:], u[(j0+1)*k+j0:], u[(j0+2)*k+j0:], u[(j0+3)*k+j0:])
 			d := -1 / l[i*k+i]
 			u[j0*k+i], u[(j0+1)*k+i], u[(j0+2)*k+i], u[(j0+3)*k+i] = s0*d, s1*d, s2*d, s3*d
 		}
@@ -142,18 +131,7 @@ func cholInverse(l []float64, k int, inv, u []float64) {
 		ua := u[a*k+a : (a+1)*k]
 		b := 0
 		for ; b+4 <= a+1; b += 4 {
-			n := len(ua)
-			v0 := u[b*k+a : (b+1)*k][:n]
-			v1 := u[(b+1)*k+a : (b+2)*k][:n]
-			v2 := u[(b+2)*k+a : (b+3)*k][:n]
-			v3 := u[(b+3)*k+a : (b+4)*k][:n]
-			var s0, s1, s2, s3 float64
-			for p, c := range ua {
-				s0 += c * v0[p]
-				s1 += c * v1[p]
-				s2 += c * v2[p]
-				s3 += c * v3[p]
-			}
+			s0, s1, s2, s3 := dot4(ua, u[b*k+a:], u[(b+1)*k+a:], u[(b+2)*k+a:], u[(b+3)*k+a:])
 			inv[a*k+b], inv[a*k+b+1], inv[a*k+b+2], inv[a*k+b+3] = s0, s1, s2, s3
 			inv[b*k+a], inv[(b+1)*k+a], inv[(b+2)*k+a], inv[(b+3)*k+a] = s0, s1, s2, s3
 		}
@@ -162,6 +140,22 @@ func cholInverse(l []float64, k int, inv, u []float64) {
 			inv[a*k+b], inv[b*k+a] = v, v
 		}
 	}
+}
+
+// dot4 returns the four sums sum_p x_p y_m[p] (each len(y_m) ≥ len(x)):
+// one row against four, each x_p loaded once for four products. The rows
+// are cut to len(x), so that the compiler drops the bounds checks of the
+// loop.
+func dot4(x, y0, y1, y2, y3 []float64) (s0, s1, s2, s3 float64) {
+	n := len(x)
+	y0, y1, y2, y3 = y0[:n], y1[:n], y2[:n], y3[:n]
+	for p, c := range x {
+		s0 += c * y0[p]
+		s1 += c * y1[p]
+		s2 += c * y2[p]
+		s3 += c * y3[p]
+	}
+	return
 }
 
 // sdot is sum x_i y_i (len(y) ≥ len(x)) for the short rows of k×k
